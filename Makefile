@@ -1,0 +1,33 @@
+# Everything a fresh machine needs: `make demo` and `make test` create .venv and install.
+PYTHON ?= python3
+VENV := .venv
+BIN := $(VENV)/bin
+STAMP := $(VENV)/.installed
+export MPLBACKEND := Agg
+export MPLCONFIGDIR := $(CURDIR)/.cache/matplotlib
+
+.PHONY: demo test lint bench clean
+
+$(BIN)/python:
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+
+$(STAMP): pyproject.toml | $(BIN)/python
+	$(BIN)/python -m pip install --quiet -e '.[test]'
+	touch $(STAMP)
+
+demo: $(STAMP)
+	$(BIN)/noisebudget tl examples/sidewall.toml --bands third
+
+test: $(STAMP)
+	$(BIN)/ruff check .
+	$(BIN)/python -m pytest -q
+
+lint: $(STAMP)
+	$(BIN)/ruff check .
+
+bench: $(STAMP)
+	$(BIN)/python tests/benchmarks/bench_stack.py
+
+clean:
+	rm -rf $(VENV) .cache demo-output

@@ -1,0 +1,16 @@
+"""noisebudget: transmission loss, interior noise and mass budgets of cabin sidewall packages.
+
+Time convention ``exp(+j omega t)`` throughout; SI units inside the library.
+"""
+
+from .errors import InputError, InputErrors, ModelRangeWarning
+from .layers import AirGap, Plate, Porous, Screen, Septum
+from .media import Air, standard_atmosphere
+from .stack import Stack
+from .stackfile import load_stack, parse_stack
+
+__version__ = "0.1.0"
+
+__all__ = ["Air", "AirGap", "InputError", "InputErrors", "ModelRangeWarning", "Plate",
+           "Porous", "Screen", "Septum", "Stack", "__version__", "load_stack",
+           "parse_stack", "standard_atmosphere"]

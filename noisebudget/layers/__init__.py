@@ -1,0 +1,12 @@
+"""Layer families. ``LAYER_TYPES`` maps a stack file's ``type`` to its class."""
+
+from .base import Field, FluidElement, Layer, LayerValueError, SheetElement
+from .fluid import AirGap
+from .panels import Plate, Septum
+from .porous import Porous
+from .screens import Screen
+
+LAYER_TYPES = {cls.type_name: cls for cls in (AirGap, Porous, Septum, Plate, Screen)}
+
+__all__ = ["LAYER_TYPES", "AirGap", "Field", "FluidElement", "Layer", "LayerValueError",
+           "Plate", "Porous", "Screen", "Septum", "SheetElement"]

@@ -1,0 +1,108 @@
+"""What every layer family shares: the two element kinds a stack cascades, and the schema.
+
+Time convention ``exp(+j omega t)``: losses are negative imaginary parts of wavenumbers
+and positive real parts of impedances.
+
+A layer supplies the least it can:
+
+* a *sheet* (thin: septum, plate, screen, tile) gives its series impedance
+  ``Z = (p_front - p_back) / v``, transfer matrix ``[[1, Z], [0, 1]]``;
+* a *fluid* layer (air gap, equivalent-fluid porous layer) gives its effective density
+  ``rho`` and bulk modulus ``K``; the stack forms ``kz^2 = omega^2 rho / K - kt^2`` and
+  the matrix ``[[cos kz d, j omega rho d sinc], [j kz^2 d sinc / (omega rho), cos kz d]]``
+  with ``sinc = sin(kz d) / (kz d)`` (Allard & Atalla, Propagation of Sound in Porous
+  Media, 2nd ed. 2009, ch. 11).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, fields
+from typing import ClassVar
+
+import numpy as np
+
+__all__ = ["Field", "FluidElement", "Layer", "LayerValueError", "SheetElement"]
+
+
+class LayerValueError(ValueError):
+    """A bad layer parameter; ``key`` names it. The file parser adds file and index."""
+
+    def __init__(self, key: str, reason: str):
+        self.key = key
+        self.reason = reason
+        super().__init__(f"{key}: {reason}")
+
+
+@dataclass(frozen=True)
+class Field:
+    """One key of a layer's file schema.
+
+    ``kind`` is a quantity kind of :mod:`noisebudget.units`, ``"number"`` for a plain
+    dimensionless number, ``"choice"`` (one of ``choices``) or ``"cells"`` (tile cells).
+    ``positive`` rejects zero and negative values.
+    """
+
+    kind: str
+    required: bool = False
+    positive: bool = True
+    choices: tuple[str, ...] = ()
+    allow_zero: bool = False
+    help: str = ""
+
+
+@dataclass(frozen=True)
+class SheetElement:
+    """Series impedance sheet, ``[[1, Z], [0, 1]]``; ``impedance`` broadcasts to (nf, nth)."""
+
+    impedance: np.ndarray
+
+
+@dataclass(frozen=True)
+class FluidElement:
+    """Homogeneous (equivalent) fluid layer of ``thickness`` with complex rho and K."""
+
+    density: np.ndarray
+    bulk_modulus: np.ndarray
+    thickness: float
+
+
+@dataclass(frozen=True)
+class Layer:
+    """Base of every layer: a frozen dataclass with SI parameters.
+
+    Subclasses set ``type_name`` and ``schema`` and implement :meth:`element`.
+    """
+
+    type_name: ClassVar[str] = ""
+    schema: ClassVar[dict] = {}
+
+    @property
+    def thickness(self) -> float:
+        """Thickness in m (0 for an idealised sheet)."""
+        return 0.0
+
+    @property
+    def areal_mass(self) -> float:
+        """Mass per unit area in kg/m^2."""
+        return 0.0
+
+    def element(self, omega: np.ndarray, kt: np.ndarray, air) -> SheetElement | FluidElement:
+        """The layer's element at angular frequencies ``omega`` (nf, 1) and trace
+        wavenumbers ``kt`` (nf, nth), with ``air`` the air filling the stack."""
+        raise NotImplementedError
+
+    def trace_resonances(self, omega: np.ndarray) -> np.ndarray | None:
+        """Trace wavenumbers (nf, k) where the layer's response is sharp (coincidence).
+
+        The angle quadrature places break points there. ``None`` when there are none.
+        """
+        return None
+
+    def parameters(self) -> dict:
+        """The layer's parameters as a plain dict (SI), for tables and reports."""
+        return {f.name: getattr(self, f.name) for f in fields(self) if f.init}
+
+    @classmethod
+    def from_values(cls, values: dict) -> Layer:
+        """Build from a dict of SI values keyed as in the file schema."""
+        return cls(**values)

@@ -1,0 +1,206 @@
+"""Porous layers as equivalent fluids: Delany-Bazley, Miki, JCA rigid and JCA limp.
+
+Time convention ``exp(+j omega t)``: the wavenumbers have negative imaginary parts.
+Each model gives an effective density rho and bulk modulus K of the equivalent fluid;
+from the characteristic impedance Zc and wavenumber kc of the empirical models,
+``rho = Zc kc / omega`` and ``K = Zc omega / kc``.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import ModelRangeWarning
+from .base import Field, FluidElement, Layer, LayerValueError
+
+__all__ = ["MODELS", "Porous", "delany_bazley", "jca_bulk_modulus", "jca_density",
+           "limp_density", "miki"]
+
+MODELS = ("delany-bazley", "miki", "jca", "jca-limp")
+
+
+def delany_bazley(f, flow_resistivity, rho0, c0):
+    """Characteristic impedance and wavenumber, Delany & Bazley (1970).
+
+    With ``X = rho0 f / sigma`` (the form used by Allard & Champoux, valid
+    0.01 < X < 1)::
+
+        Zc = rho0 c0 [1 + 0.0571 X^-0.754 - j 0.0870 X^-0.732]
+        kc = (omega / c0) [1 + 0.0978 X^-0.700 - j 0.1890 X^-0.595]
+
+    Source: M. E. Delany and E. N. Bazley, Applied Acoustics 3 (1970) 105-116.
+    Returns ``(zc, kc)`` complex arrays.
+    """
+    x = rho0 * f / flow_resistivity
+    zc = rho0 * c0 * (1 + 0.0571 * x**-0.754 - 1j * 0.0870 * x**-0.732)
+    kc = 2 * np.pi * f / c0 * (1 + 0.0978 * x**-0.700 - 1j * 0.1890 * x**-0.595)
+    return zc, kc
+
+
+def miki(f, flow_resistivity, rho0, c0):
+    """Characteristic impedance and wavenumber, Miki (1990).
+
+    With ``X = f / sigma``::
+
+        Zc = rho0 c0 [1 + 0.0699 X^-0.632 - j 0.1071 X^-0.632]
+        kc = (omega / c0) [1 + 0.1093 X^-0.618 - j 0.1597 X^-0.618]
+
+    Source: Y. Miki, J. Acoust. Soc. Jpn (E) 11 (1990) 19-24.
+    """
+    x = f / flow_resistivity
+    zc = rho0 * c0 * (1 + 0.0699 * x**-0.632 - 1j * 0.1071 * x**-0.632)
+    kc = 2 * np.pi * f / c0 * (1 + 0.1093 * x**-0.618 - 1j * 0.1597 * x**-0.618)
+    return zc, kc
+
+
+def jca_density(omega, sigma, phi, alpha_inf, viscous_length, air):
+    """Dynamic density of the rigid-frame equivalent fluid (Johnson et al. 1987).
+
+    ``rho = (alpha_inf rho0 / phi) [1 + (sigma phi / (j omega rho0 alpha_inf))
+    sqrt(1 + j 4 alpha_inf^2 eta rho0 omega / (sigma^2 Lambda^2 phi^2))]``
+    (Johnson, Koplik & Dashen, J. Fluid Mech. 176 (1987); Allard & Atalla 2009, ch. 5).
+    At low frequency ``j omega rho -> sigma``.
+    """
+    rho0, eta = air.density, air.viscosity
+    g = np.sqrt(1 + 4j * alpha_inf**2 * eta * rho0 * omega
+                / (sigma**2 * viscous_length**2 * phi**2))
+    return alpha_inf * rho0 / phi * (1 + sigma * phi / (1j * omega * rho0 * alpha_inf) * g)
+
+
+def jca_bulk_modulus(omega, phi, thermal_length, air):
+    """Dynamic bulk modulus of the equivalent fluid (Champoux & Allard 1991).
+
+    ``K = (gamma P0 / phi) / [gamma - (gamma - 1) (1 + 8 eta / (j Lambda'^2 Pr rho0
+    omega) sqrt(1 + j Lambda'^2 Pr rho0 omega / (16 eta)))^-1]``
+    (Champoux & Allard, J. Appl. Phys. 70 (1991) 1975). Tends to P0/phi (isothermal)
+    at low frequency and gamma P0 / phi (adiabatic) at high frequency.
+    """
+    rho0, eta, pr, gam, p0 = air.density, air.viscosity, air.prandtl, air.gamma, air.pressure
+    lam2 = thermal_length**2
+    inner = 1 + 8 * eta / (1j * lam2 * pr * rho0 * omega) * np.sqrt(
+        1 + 1j * lam2 * pr * rho0 * omega / (16 * eta))
+    return gam * p0 / phi / (gam - (gam - 1) / inner)
+
+
+def limp_density(rho_rigid, bulk_density, phi, rho0):
+    """Equivalent density when the frame is limp (Panneton, JASA 122 (2007) EL217).
+
+    ``rho_limp = (rho_t rho - rho0^2) / (rho_t + rho - 2 rho0)`` with
+    ``rho_t = rho_1 + phi rho0`` the total apparent density and ``rho`` the rigid-frame
+    equivalent density. Re-derived here from Biot's equations with a frame that carries
+    no stress, the interface velocity being the total (frame plus fluid) velocity.
+    Tends to ``rho`` for a heavy frame and to ``rho_t`` at low frequency.
+    """
+    rho_t = bulk_density + phi * rho0
+    return (rho_t * rho_rigid - rho0**2) / (rho_t + rho_rigid - 2 * rho0)
+
+
+@dataclass(frozen=True)
+class Porous(Layer):
+    """Porous layer (fibrous blanket, foam) as a homogeneous equivalent fluid.
+
+    Parameters
+    ----------
+    model : str
+        ``"delany-bazley"``, ``"miki"`` (empirical, sigma only), ``"jca"`` (rigid
+        frame) or ``"jca-limp"`` (limp frame, needs ``bulk_density``).
+    layer_thickness : float
+        m.
+    flow_resistivity : float
+        sigma in Pa s/m^2.
+    porosity, tortuosity, viscous_length, thermal_length : float
+        phi, alpha_inf, Lambda (m), Lambda' (m) for the JCA models.
+    bulk_density : float
+        Frame density rho_1 in kg/m^3 (areal mass; the limp model's inertia).
+
+    Notes
+    -----
+    The frame's elasticity is neglected (no Biot frame wave): good for light blankets
+    behind a skin, not for stiff foams bonded to a panel. The empirical models warn
+    (``ModelRangeWarning``) outside 0.01 < X < 1.
+    """
+
+    model: str = "delany-bazley"
+    layer_thickness: float = 0.0
+    flow_resistivity: float = 0.0
+    porosity: float | None = None
+    tortuosity: float | None = None
+    viscous_length: float | None = None
+    thermal_length: float | None = None
+    bulk_density: float | None = None
+    type_name = "porous"
+
+    def __post_init__(self):
+        if self.model not in MODELS:
+            raise LayerValueError("model", f"unknown porous model {self.model!r}; "
+                                           f"one of {', '.join(MODELS)}")
+        need = {"jca": ("porosity", "tortuosity", "viscous_length", "thermal_length"),
+                "jca-limp": ("porosity", "tortuosity", "viscous_length", "thermal_length",
+                             "bulk_density")}.get(self.model, ())
+        for name in need:
+            if getattr(self, name) is None:
+                raise LayerValueError(name, f"missing: model {self.model!r} needs "
+                                            f"{', '.join(need)}")
+        if self.porosity is not None and not 0 < self.porosity <= 1:
+            raise LayerValueError("porosity", f"must lie in (0, 1], got {self.porosity}")
+        if self.tortuosity is not None and self.tortuosity < 1:
+            raise LayerValueError("tortuosity", f"must be >= 1, got {self.tortuosity}")
+
+    @property
+    def thickness(self):
+        return self.layer_thickness
+
+    @property
+    def areal_mass(self):
+        return (self.bulk_density or 0.0) * self.layer_thickness
+
+    def equivalent_fluid(self, omega, air):
+        """Effective density and bulk modulus (complex arrays shaped like omega)."""
+        omega = np.asarray(omega, dtype=float)
+        rho0, c0 = air.density, air.sound_speed
+        f = omega / (2 * np.pi)
+        if self.model in ("delany-bazley", "miki"):
+            x = f / self.flow_resistivity * (rho0 if self.model == "delany-bazley" else 1.0)
+            if np.any((x < 0.01) | (x > 1.0)):
+                scale = rho0 if self.model == "delany-bazley" else 1.0
+                lo, hi = 0.01 * self.flow_resistivity / scale, self.flow_resistivity / scale
+                warnings.warn(
+                    f"{self.model} (sigma {self.flow_resistivity:g} Pa s/m^2) is fitted for "
+                    f"{lo:.0f}-{hi:.0f} Hz (0.01 < X < 1) and is used outside that range",
+                    ModelRangeWarning, stacklevel=3)
+            fn = delany_bazley if self.model == "delany-bazley" else miki
+            zc, kc = fn(f, self.flow_resistivity, rho0, c0)
+            return zc * kc / omega, zc * omega / kc
+        rho = jca_density(omega, self.flow_resistivity, self.porosity, self.tortuosity,
+                          self.viscous_length, air)
+        if self.model == "jca-limp":
+            rho = limp_density(rho, self.bulk_density, self.porosity, rho0)
+        return rho, jca_bulk_modulus(omega, self.porosity, self.thermal_length, air)
+
+    def element(self, omega, kt, air):
+        rho, k = self.equivalent_fluid(omega, air)
+        return FluidElement(rho, k, self.layer_thickness)
+
+    @classmethod
+    def from_values(cls, values):
+        return cls(model=values["model"], layer_thickness=values["thickness"],
+                   flow_resistivity=values["flow_resistivity"],
+                   porosity=values.get("porosity"), tortuosity=values.get("tortuosity"),
+                   viscous_length=values.get("viscous_length"),
+                   thermal_length=values.get("thermal_length"),
+                   bulk_density=values.get("bulk_density"))
+
+
+Porous.schema = {
+    "model": Field("choice", required=True, choices=MODELS),
+    "thickness": Field("length", required=True),
+    "flow_resistivity": Field("flow_resistivity", required=True),
+    "porosity": Field("number"),
+    "tortuosity": Field("number"),
+    "viscous_length": Field("length"),
+    "thermal_length": Field("length"),
+    "bulk_density": Field("density"),
+}

@@ -1,0 +1,137 @@
+"""Single-number ratings: STC, Rw with C and Ctr, OITC, and speech interference levels.
+
+Inputs are one-third-octave (or octave) band values keyed by ISO 266 nominal frequency.
+A rating refuses to run when any band it needs is missing.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .bands import a_weighting, third_octave_bands
+
+__all__ = ["RatingError", "oitc", "psil", "ratings", "rw", "sil3", "sil4", "stc"]
+
+# ASTM E413: contour relative to its 500 Hz value, 125 .. 4000 Hz (16 bands)
+STC_BANDS = (125, 160, 200, 250, 315, 400, 500, 630, 800, 1000, 1250, 1600, 2000, 2500,
+             3150, 4000)
+STC_CONTOUR = (-16, -13, -10, -7, -4, -1, 0, 1, 2, 3, 4, 4, 4, 4, 4, 4)
+# ISO 717-1:2013: reference curve (absolute, 500 Hz = 52) and spectra No. 1 and No. 2
+RW_BANDS = (100, 125, 160, 200, 250, 315, 400, 500, 630, 800, 1000, 1250, 1600, 2000, 2500,
+            3150)
+RW_REFERENCE = (33, 36, 39, 42, 45, 48, 51, 52, 53, 54, 55, 56, 56, 56, 56, 56)
+RW_SPECTRUM_1 = (-29, -26, -23, -21, -19, -17, -15, -13, -12, -11, -10, -9, -9, -9, -9, -9)
+RW_SPECTRUM_2 = (-20, -20, -18, -16, -15, -14, -13, -12, -11, -9, -8, -9, -10, -11, -13, -15)
+# ASTM E1332 reference source spectrum, 80 .. 4000 Hz (values from memory; their
+# A-weighted sum is 100.12 dB, consistent with the 100.13 constant of the rating)
+OITC_BANDS = (80, 100, 125, 160, 200, 250, 315, 400, 500, 630, 800, 1000, 1250, 1600, 2000,
+              2500, 3150, 4000)
+OITC_SPECTRUM = (105, 102, 100, 98, 97, 95, 94, 93, 93, 91, 90, 89, 89, 88, 88, 87, 85, 84)
+
+
+class RatingError(ValueError):
+    """The band values do not cover what a rating needs."""
+
+
+def _pick(nominal_hz, values, needed, name) -> np.ndarray:
+    lookup = {round(float(f), 2): float(v) for f, v in zip(nominal_hz, values, strict=True)}
+    missing = [f for f in needed if round(float(f), 2) not in lookup]
+    if missing:
+        raise RatingError(f"{name} needs one-third-octave bands {needed[0]}-{needed[-1]} Hz; "
+                          f"missing {', '.join(f'{m:g}' for m in missing)} Hz")
+    out = np.array([lookup[round(float(f), 2)] for f in needed])
+    if not np.all(np.isfinite(out)):
+        raise RatingError(f"{name}: band values must be finite numbers")
+    return out
+
+
+def stc(nominal_hz, tl_db) -> int:
+    """Sound transmission class, ASTM E413.
+
+    TL is rounded to whole dB; the contour is raised in 1 dB steps to the highest
+    position where the sum of deficiencies is at most 32 dB and no single deficiency
+    exceeds 8 dB. STC is the contour's value at 500 Hz.
+    """
+    tl = np.floor(_pick(nominal_hz, tl_db, STC_BANDS, "STC") + 0.5)
+    contour = np.array(STC_CONTOUR)
+    best = None
+    for level in range(0, 151):  # contour positions, not frequencies
+        deficiency = np.maximum(level + contour - tl, 0)
+        if deficiency.sum() <= 32 and deficiency.max() <= 8:
+            best = level
+        else:
+            break
+    if best is None:
+        raise RatingError("STC: TL too low for any contour position >= 0")
+    return int(best)
+
+
+def _rw_shift(r, reference) -> int:
+    """Largest shift with unfavourable deviations summing to <= 32.0 dB (in tenths)."""
+    r10 = np.round(r * 10).astype(int)
+    ref10 = np.asarray(reference) * 10
+    shift = int(np.floor(np.min(r) - np.max(reference))) - 1
+    while True:  # shifts of 1 dB, at most a few hundred
+        dev = np.maximum(ref10 + 10 * (shift + 1) - r10, 0).sum()
+        if dev > 320:
+            return shift
+        shift += 1
+
+
+def rw(nominal_hz, r_db) -> tuple[int, int, int]:
+    """Weighted sound reduction index with spectrum adaptation terms, ISO 717-1:2013.
+
+    R to 0.1 dB at 100-3150 Hz; the reference curve is shifted in 1 dB steps until the
+    sum of unfavourable deviations is as large as possible but <= 32.0 dB; Rw is the
+    shifted curve at 500 Hz. ``C_j = X_Aj - Rw``, ``X_Aj = -10 lg sum 10^((L_ij - R_i)/10)``
+    with spectrum No. 1 (C) and No. 2 (Ctr), rounded to whole dB.
+
+    Returns
+    -------
+    (rw, c, ctr) : tuple of int
+    """
+    r = np.round(_pick(nominal_hz, r_db, RW_BANDS, "Rw"), 1)
+    value = 52 + _rw_shift(r, RW_REFERENCE)
+    xa1 = -10 * np.log10(np.sum(10 ** ((np.array(RW_SPECTRUM_1) - r) / 10)))
+    xa2 = -10 * np.log10(np.sum(10 ** ((np.array(RW_SPECTRUM_2) - r) / 10)))
+    return value, int(np.floor(xa1 - value + 0.5)), int(np.floor(xa2 - value + 0.5))
+
+
+def oitc(nominal_hz, tl_db) -> int:
+    """Outdoor-indoor transmission class, ASTM E1332.
+
+    ``OITC = 100.13 - 10 lg sum 10^((L_f - TL_f + A_f) / 10)`` over 80-4000 Hz with the
+    reference source spectrum L_f and A-weighting A_f; rounded to whole dB.
+    """
+    tl = _pick(nominal_hz, tl_db, OITC_BANDS, "OITC")
+    a = np.round(a_weighting(third_octave_bands(80, 4000).centre), 1)
+    level = 10 * np.log10(np.sum(10 ** ((np.array(OITC_SPECTRUM) - tl + a) / 10)))
+    return int(np.floor(100.13 - level + 0.5))
+
+
+def _octave_mean(nominal_hz, levels_db, bands, name) -> float:
+    return float(np.mean(_pick(nominal_hz, levels_db, bands, name)))
+
+
+def sil4(octave_nominal_hz, levels_db) -> float:
+    """Speech interference level: arithmetic mean of the 500, 1000, 2000, 4000 Hz octave
+    levels (ANSI S3.14-1977)."""
+    return _octave_mean(octave_nominal_hz, levels_db, (500, 1000, 2000, 4000), "SIL4")
+
+
+def psil(octave_nominal_hz, levels_db) -> float:
+    """Preferred speech interference level: mean of the 500, 1000, 2000 Hz octaves."""
+    return _octave_mean(octave_nominal_hz, levels_db, (500, 1000, 2000), "PSIL")
+
+
+def sil3(octave_nominal_hz, levels_db) -> float:
+    """SIL of the 1000, 2000, 4000 Hz octaves, common in aircraft interior work."""
+    return _octave_mean(octave_nominal_hz, levels_db, (1000, 2000, 4000), "SIL3")
+
+
+def ratings(nominal_hz, tl_db) -> dict:
+    """STC, Rw, C, Ctr and OITC from one-third-octave TL; raises RatingError if bands
+    are missing."""
+    value, c, ctr = rw(nominal_hz, tl_db)
+    return {"stc": stc(nominal_hz, tl_db), "rw": value, "c": c, "ctr": ctr,
+            "oitc": oitc(nominal_hz, tl_db)}

@@ -1,0 +1,249 @@
+"""The ordered stack: cascade of transfer matrices, terminations, transmission.
+
+Time convention ``exp(+j omega t)``. State vector ``(p, v_z)``; a layer's matrix maps
+the state on its receiving face to its source face, ``[p1, v1] = T [p2, v2]``.
+The cascade is kept as four element-wise arrays ``a, b, c, d`` shaped (nf, nth); a sheet
+updates two of them. Fluid layers are evaluated with ``exp(-|Im kz d|)`` factored out
+and the factor's logarithm accumulated, so a thick lossy layer at high frequency cannot
+overflow.
+
+With normal admittances ``Y = kz / (omega rho)`` of the two half-spaces, the
+transmission coefficient (ratio of normal intensities) is::
+
+    tau = 4 Y1 Re(Y2) / |a Y1 + b Y1 Y2 + c + d Y2|^2
+
+which for equal air on both sides is Allard & Atalla (2009) eq. 11.9x form
+``tau = |2 / (T11 + T12 cos(theta)/Z0 + T21 Z0/cos(theta) + T22)|^2``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+
+from .bands import Bands, band_average
+from .incidence import INCIDENCE, default_theta_max_deg, paris_nodes
+from .layers.base import FluidElement, Layer, SheetElement
+from .media import Air
+
+__all__ = ["Stack", "cascade", "TL_CAP_DB"]
+
+TL_CAP_DB = 300.0  # transmission losses are capped here (tau floor 1e-30)
+
+
+def _fluid_matrix(el: FluidElement, omega, kt):
+    """Scaled entries of a fluid layer's matrix and the log of the scale."""
+    rho, bulk, dd = el.density, el.bulk_modulus, el.thickness
+    kz2 = omega**2 * rho / bulk - kt**2
+    x = np.sqrt(kz2 + 0j) * dd
+    y = np.abs(x.imag)
+    e1 = np.exp(1j * x.real - x.imag - y)
+    e2 = np.exp(-1j * x.real + x.imag - y)
+    cs = (e1 + e2) / 2
+    sn = (e1 - e2) / 2j
+    small = np.abs(x) < 1e-6
+    sinc = np.where(small, (1 - x**2 / 6) * np.exp(-y), sn / np.where(small, 1.0, x))
+    m12 = 1j * omega * rho * dd * sinc
+    m21 = 1j * kz2 * dd * sinc / (omega * rho)
+    return cs, m12, m21, y
+
+
+def cascade(elements, omega, kt):
+    """Product of the elements' matrices as scaled arrays ``(a, b, c, d, log_scale)``.
+
+    Parameters
+    ----------
+    elements : sequence of SheetElement or FluidElement
+        Source side first.
+    omega : ndarray (nf, 1); kt : ndarray (nf, nth)
+
+    Returns
+    -------
+    a, b, c, d : complex ndarrays (nf, nth); log_scale : float ndarray (nf, nth)
+        The true product is ``exp(log_scale) * [[a, b], [c, d]]``.
+    """
+    shape = np.broadcast_shapes(np.shape(omega), np.shape(kt))
+    a = np.ones(shape, complex)
+    b = np.zeros(shape, complex)
+    c = np.zeros(shape, complex)
+    d = np.ones(shape, complex)
+    log_scale = np.zeros(shape)
+    for el in elements:  # loop over layers; every operation is over (nf, nth)
+        if isinstance(el, SheetElement):
+            z = el.impedance
+            b = a * z + b
+            d = c * z + d
+        elif isinstance(el, FluidElement):
+            if el.thickness == 0.0:
+                continue
+            m11, m12, m21, y = _fluid_matrix(el, omega, kt)
+            a, b = a * m11 + b * m21, a * m12 + b * m11
+            c, d = c * m11 + d * m21, c * m12 + d * m11
+            log_scale = log_scale + y
+        else:
+            raise TypeError(f"unknown element {type(el).__name__}")
+    return a, b, c, d, log_scale
+
+
+@dataclass(frozen=True)
+class Stack:
+    """Layers from the source (exterior) side to the receiving (cabin) side.
+
+    Parameters
+    ----------
+    layers : tuple of Layer
+    source_air, receiver_air : Air
+        The semi-infinite air on each side.
+    cavity_air : Air or None
+        Air filling gaps and pores; defaults to ``receiver_air`` (a sidewall cavity is
+        vented to the cabin).
+    labels : tuple of str
+        A display name per layer.
+    """
+
+    layers: tuple = ()
+    source_air: Air = field(default_factory=Air)
+    receiver_air: Air | None = None
+    cavity_air: Air | None = None
+    labels: tuple = ()
+
+    def __post_init__(self):
+        object.__setattr__(self, "layers", tuple(self.layers))
+        if self.receiver_air is None:
+            object.__setattr__(self, "receiver_air", self.source_air)
+        if self.cavity_air is None:
+            object.__setattr__(self, "cavity_air", self.receiver_air)
+        if len(self.labels) != len(self.layers):
+            object.__setattr__(self, "labels", tuple(
+                getattr(layer, "type_name", "layer") for layer in self.layers))
+        for layer in self.layers:
+            if not isinstance(layer, Layer):
+                raise TypeError(f"not a layer: {layer!r}")
+
+    @property
+    def areal_mass(self) -> float:
+        """Total mass per unit area in kg/m^2."""
+        return float(sum(layer.areal_mass for layer in self.layers))
+
+    @property
+    def thickness(self) -> float:
+        """Total thickness in m."""
+        return float(sum(layer.thickness for layer in self.layers))
+
+    def reversed(self) -> Stack:
+        """The same layers seen from the other side, the two airs swapped."""
+        return replace(self, layers=self.layers[::-1], labels=self.labels[::-1],
+                       source_air=self.receiver_air, receiver_air=self.source_air)
+
+    def _tau(self, omega, theta):
+        """tau for omega (nf, 1) and source-side angles theta (nf, nth) or (1, nth)."""
+        air1, air2 = self.source_air, self.receiver_air
+        k1 = omega / air1.sound_speed
+        kt = k1 * np.sin(theta)
+        elements = [layer.element(omega, kt, self.cavity_air) for layer in self.layers]
+        a, b, c, d, log_scale = cascade(elements, omega, kt)
+        cos1 = np.cos(theta)
+        y1 = cos1 / air1.impedance
+        arg2 = (omega / air2.sound_speed) ** 2 - k1**2 + (k1 * cos1) ** 2
+        kz2 = np.where(arg2 >= 0, np.sqrt(np.abs(arg2)) + 0j, -1j * np.sqrt(np.abs(arg2)))
+        y2 = kz2 / (omega * air2.density)
+        den = a * y1 + b * y1 * y2 + c + d * y2
+        with np.errstate(under="ignore"):
+            return 4 * y1 * y2.real / np.abs(den) ** 2 * np.exp(-2 * log_scale)
+
+    def transmission_coefficient(self, f_hz, theta_rad) -> np.ndarray:
+        """Power transmission coefficient tau(f, theta), shape (nf, nth).
+
+        Parameters
+        ----------
+        f_hz : array_like (nf,)
+            Frequencies in Hz, > 0.
+        theta_rad : array_like (nth,)
+            Angles of incidence from the normal on the source side, 0 .. pi/2.
+        """
+        f = np.atleast_1d(np.asarray(f_hz, dtype=float))
+        th = np.atleast_1d(np.asarray(theta_rad, dtype=float))
+        if np.any(f <= 0):
+            raise ValueError("frequencies must be positive")
+        if np.any((th < 0) | (th > np.pi / 2)):
+            raise ValueError("angles must lie in 0 .. pi/2")
+        return self._tau(2 * np.pi * f[:, None], th[None, :])
+
+    def sharp_trace_wavenumbers(self, omega) -> np.ndarray | None:
+        """Split points for the angle quadrature, (nf, p), from every layer."""
+        parts = [r for layer in self.layers
+                 if (r := layer.trace_resonances(omega)) is not None]
+        if not parts:
+            return None
+        return np.concatenate([np.broadcast_to(r, (omega.shape[0], r.shape[-1]))
+                               for r in parts], axis=1)
+
+    def average_transmission(self, f_hz, incidence: str = "field",
+                             theta_max_deg: float | None = None, n_angles: int = 20):
+        """Incidence-averaged transmission coefficient, shape (nf,).
+
+        ``normal`` evaluates theta = 0; ``field`` (default limit 78 deg) and ``diffuse``
+        (90 deg) apply Paris' formula with :func:`noisebudget.incidence.paris_nodes`.
+        """
+        if incidence not in INCIDENCE:
+            raise ValueError(f"incidence must be one of {INCIDENCE}, got {incidence!r}")
+        f = np.atleast_1d(np.asarray(f_hz, dtype=float))
+        if incidence == "normal":
+            return self.transmission_coefficient(f, [0.0])[:, 0]
+        if theta_max_deg is None:
+            theta_max_deg = default_theta_max_deg(incidence)
+        if not 0.0 < theta_max_deg <= 90.0:
+            raise ValueError(f"theta_max_deg must lie in (0, 90], got {theta_max_deg}")
+        omega = 2 * np.pi * f[:, None]
+        k0 = omega[:, 0] / self.source_air.sound_speed
+        theta, weight = paris_nodes(k0, self.sharp_trace_wavenumbers(omega),
+                                    np.radians(theta_max_deg), n_angles)
+        return np.sum(self._tau(omega, theta) * weight, axis=1)
+
+    def transmission_loss(self, f_hz, incidence: str = "field",
+                          theta_max_deg: float | None = None, n_angles: int = 20):
+        """Transmission loss ``TL = -10 lg tau`` in dB, shape (nf,), capped at 300 dB."""
+        tau = self.average_transmission(f_hz, incidence, theta_max_deg, n_angles)
+        return -10 * np.log10(np.maximum(tau, 10 ** (-TL_CAP_DB / 10)))
+
+    def band_transmission_loss(self, bands: Bands, incidence: str = "field",
+                               theta_max_deg: float | None = None) -> np.ndarray:
+        """Band TL: the incidence-averaged tau averaged as energy over each band.
+
+        Uses :func:`noisebudget.bands.band_average` (at least 8 points per band, refined
+        where the band holds a resonance or coincidence); never an average of dB.
+        """
+        tau = band_average(lambda f: self.average_transmission(f, incidence, theta_max_deg),
+                           bands)
+        return -10 * np.log10(np.maximum(tau, 10 ** (-TL_CAP_DB / 10)))
+
+    def surface_impedance(self, f_hz, theta_rad=0.0, backing: str = "rigid") -> np.ndarray:
+        """Normal surface impedance ``Zs = p1 / v1`` seen from the source side, (nf, nth).
+
+        ``backing="rigid"`` closes the last layer with a rigid wall (``v2 = 0``, so
+        ``Zs = T11 / T21``); ``"receiver"`` with the receiving half-space (``p2 = Z2 v2``,
+        ``Zs = (T11 Z2 + T12) / (T21 Z2 + T22)``).
+        """
+        f = np.atleast_1d(np.asarray(f_hz, dtype=float))
+        th = np.atleast_1d(np.asarray(theta_rad, dtype=float))[None, :]
+        omega = 2 * np.pi * f[:, None]
+        kt = omega / self.source_air.sound_speed * np.sin(th)
+        elements = [layer.element(omega, kt, self.cavity_air) for layer in self.layers]
+        a, b, c, d, _ = cascade(elements, omega, kt)
+        if backing == "rigid":
+            return a / c
+        if backing != "receiver":
+            raise ValueError("backing must be 'rigid' or 'receiver'")
+        air2 = self.receiver_air
+        arg2 = (omega / air2.sound_speed) ** 2 - kt**2
+        kz2 = np.where(arg2 >= 0, np.sqrt(np.abs(arg2)) + 0j, -1j * np.sqrt(np.abs(arg2)))
+        z2 = omega * air2.density / kz2
+        return (a * z2 + b) / (c * z2 + d)
+
+    def absorption_coefficient(self, f_hz, theta_rad=0.0, backing: str = "rigid"):
+        """Absorption ``1 - |(Zs cos(theta) - Z0) / (Zs cos(theta) + Z0)|^2``, (nf, nth)."""
+        zs = self.surface_impedance(f_hz, theta_rad, backing)
+        cos = np.cos(np.atleast_1d(np.asarray(theta_rad, dtype=float)))[None, :]
+        z0 = self.source_air.impedance
+        return 1 - np.abs((zs * cos - z0) / (zs * cos + z0)) ** 2
