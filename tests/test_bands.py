@@ -1,0 +1,117 @@
+"""Bands (IEC 61260-1, ISO 266), weightings (IEC 61672-1) and band averaging."""
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+import noisebudget as nb
+from noisebudget.bands import (
+    band_average,
+    bands_between,
+    energy_mean,
+    energy_sum,
+    log_grid,
+    third_to_octave,
+)
+
+# IEC 61672-1:2013 Table 3 (design goals), nominal 10 Hz - 20 kHz, A and C in dB
+IEC_TABLE = [
+    (10, -70.4, -14.3), (12.5, -63.4, -11.2), (16, -56.7, -8.5), (20, -50.5, -6.2),
+    (25, -44.7, -4.4), (31.5, -39.4, -3.0), (40, -34.6, -2.0), (50, -30.2, -1.3),
+    (63, -26.2, -0.8), (80, -22.5, -0.5), (100, -19.1, -0.3), (125, -16.1, -0.2),
+    (160, -13.4, -0.1), (200, -10.9, 0.0), (250, -8.6, 0.0), (315, -6.6, 0.0),
+    (400, -4.8, 0.0), (500, -3.2, 0.0), (630, -1.9, 0.0), (800, -0.8, 0.0),
+    (1000, 0.0, 0.0), (1250, 0.6, 0.0), (1600, 1.0, -0.1), (2000, 1.2, -0.2),
+    (2500, 1.3, -0.3), (3150, 1.2, -0.5), (4000, 1.0, -0.8), (5000, 0.5, -1.3),
+    (6300, -0.1, -2.0), (8000, -1.1, -3.0), (10000, -2.5, -4.4), (12500, -4.3, -6.2),
+    (16000, -6.6, -8.5), (20000, -9.3, -11.2),
+]
+
+
+def test_weightings_match_iec_61672_table():
+    b = bands_between(10, 20000, 3)
+    nominal, a_ref, c_ref = (np.array(col) for col in zip(*IEC_TABLE, strict=True))
+    np.testing.assert_array_equal(b.nominal, nominal)
+    # evaluated at the exact base-10 mid-band frequencies, rounded to 0.1 dB like the table
+    np.testing.assert_array_equal(np.round(nb.a_weighting(b.centre), 1) + 0.0, a_ref)
+    np.testing.assert_array_equal(np.round(nb.c_weighting(b.centre), 1) + 0.0, c_ref)
+    assert nb.a_weighting(1000.0) == 0.0 and nb.c_weighting(1000.0) == 0.0
+
+
+def test_mid_band_and_edges_iec_61260():
+    # IEC 61260-1:2014 base 10: fm = 1000 G^(x/3), edges fm G^(-+1/6), G = 10^0.3
+    b = nb.third_octave_bands(100, 3150)
+    assert b.lower[0] == pytest.approx(89.1251, abs=1e-4)
+    assert b.upper[0] == pytest.approx(112.2018, abs=1e-4)
+    i = b.index([3150])[0]
+    assert b.centre[i] == pytest.approx(3162.2777, abs=1e-4)
+    assert (b.lower[i], b.upper[i]) == pytest.approx((2818.3829, 3548.1339), abs=1e-4)
+    np.testing.assert_allclose(b.upper[:-1], b.lower[1:], rtol=1e-12)  # contiguous
+    o = nb.octave_bands(31.5, 16000)
+    np.testing.assert_array_equal(o.nominal, [31.5, 63, 125, 250, 500, 1000, 2000, 4000, 8000,
+                                              16000])
+    np.testing.assert_allclose(o.upper / o.lower, 10**0.3, rtol=1e-12)
+
+
+def test_iso_266_labels():
+    # ISO 266 one-third-octave nominal frequencies 25 ... 10000 Hz
+    iso = [25, 31.5, 40, 50, 63, 80, 100, 125, 160, 200, 250, 315, 400, 500, 630, 800, 1000,
+           1250, 1600, 2000, 2500, 3150, 4000, 5000, 6300, 8000, 10000]
+    np.testing.assert_array_equal(nb.third_octave_bands(25, 10000).nominal, iso)
+
+
+def test_even_fraction_bands():
+    # IEC 61260-1: even b, fm = 1000 G^((2x+1)/(2b)); sixth octaves straddle 1 kHz
+    b = bands_between(900, 1100, 6)
+    np.testing.assert_allclose(b.centre, [1000 * 10 ** (-0.3 / 12), 1000 * 10 ** (0.3 / 12)],
+                               rtol=1e-12)
+
+
+def test_level_arithmetic():
+    assert energy_sum([80.0, 80.0]) == pytest.approx(83.0103, abs=1e-4)  # 10 lg 2
+    assert energy_sum([-np.inf, 60.0]) == pytest.approx(60.0)
+    assert energy_mean([70.0, 80.0]) == pytest.approx(10 * np.log10((1e7 + 1e8) / 2))
+    thirds = nb.third_octave_bands(100, 5000)
+    octs, lv = third_to_octave(thirds, np.full(len(thirds), 60.0))
+    np.testing.assert_array_equal(octs.nominal, [125, 250, 500, 1000, 2000, 4000])
+    np.testing.assert_allclose(lv, 60 + 10 * np.log10(3))
+
+
+def test_log_grid():
+    f = log_grid(50, 10000, 12)
+    assert f[0] == 50 and f[-1] == 10000 and np.allclose(np.diff(np.log2(f[:-1])), 1 / 12)
+
+
+@settings(max_examples=30, deadline=None)
+@given(st.floats(0.0, 120.0))
+def test_band_mean_of_constant_tl_is_that_tl(tl):
+    b = nb.third_octave_bands(50, 5000)
+    tau = band_average(lambda f: np.full_like(f, 10 ** (-tl / 10)), b)
+    np.testing.assert_allclose(-10 * np.log10(tau), tl, atol=1e-9)
+
+
+@settings(max_examples=30, deadline=None)
+@given(st.floats(0.5, 0.99), st.floats(1e-3, 3e-2))
+def test_band_with_sharp_dip_is_below_arithmetic_mean_of_db(pos, width):
+    # energy averaging: a narrow dip (tau peak) dominates the band value
+    b = nb.third_octave_bands(1000, 1000)
+    f0 = b.lower[0] + pos * (b.upper[0] - b.lower[0]) * 0.98
+
+    def tau(f):
+        return 1e-4 + 0.1 / (1 + ((f - f0) / (width * f0)) ** 2)
+
+    band_db = -10 * np.log10(band_average(tau, b))[0]
+    f = np.linspace(b.lower[0], b.upper[0], 20001)
+    assert band_db < np.mean(-10 * np.log10(tau(f)))
+
+
+def test_band_average_resolves_mass_air_mass_dip():
+    # refinement: the band holding the 126 Hz double-wall dip agrees with a dense sum
+    s = nb.Stack([nb.Septum(4.448), nb.AirGap(0.1), nb.Septum(4.448)])
+    b = nb.third_octave_bands(125, 125)
+    got = s.band_transmission_loss(b, "normal")[0]
+    f = np.linspace(b.lower[0], b.upper[0], 200001)
+    tau = s.transmission_coefficient(f, [0.0])[:, 0]
+    assert got == pytest.approx(-10 * np.log10(np.mean(tau)), abs=0.02)
+    assert got < np.mean(-10 * np.log10(tau)) - 0.5  # energy average: the dip dominates
