@@ -27,7 +27,7 @@ lint: $(STAMP)
 	$(BIN)/ruff check .
 
 bench: $(STAMP)
-	$(BIN)/python tests/benchmarks/bench_stack.py
+	for b in tests/benchmarks/bench_*.py; do $(BIN)/python $$b; done
 
 clean:
 	rm -rf $(VENV) .cache demo-output

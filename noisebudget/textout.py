@@ -19,5 +19,7 @@ def format_table(headers, rows, digits=1) -> str:
               for i, h in enumerate(headers)]
     lines = ["  ".join(str(h).rjust(w) for h, w in zip(headers, widths, strict=True)),
              "  ".join("-" * w for w in widths)]
-    lines += ["  ".join(c.rjust(w) for c, w in zip(r, widths, strict=True)) for r in cells]
+    text = [not isinstance(v, (int, float)) for v in rows[0]] if rows else []
+    lines += ["  ".join(c.ljust(w) if t else c.rjust(w)
+                        for c, w, t in zip(r, widths, text, strict=True)) for r in cells]
     return "\n".join(lines)

@@ -4,9 +4,10 @@ from .base import Field, FluidElement, Layer, LayerValueError, SheetElement
 from .fluid import AirGap
 from .panels import Plate, Septum
 from .porous import Porous
+from .resonators import Cell, Tile
 from .screens import Screen
 
-LAYER_TYPES = {cls.type_name: cls for cls in (AirGap, Porous, Septum, Plate, Screen)}
+LAYER_TYPES = {cls.type_name: cls for cls in (AirGap, Porous, Septum, Plate, Screen, Tile)}
 
-__all__ = ["LAYER_TYPES", "AirGap", "Field", "FluidElement", "Layer", "LayerValueError",
-           "Plate", "Porous", "Screen", "Septum", "SheetElement"]
+__all__ = ["LAYER_TYPES", "AirGap", "Cell", "Field", "FluidElement", "Layer", "LayerValueError",
+           "Plate", "Porous", "Screen", "Septum", "SheetElement", "Tile"]

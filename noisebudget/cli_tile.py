@@ -1,0 +1,176 @@
+"""The `tile` command: resonances, peak, mode shape, tuning and calibration of a tile."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+__all__ = ["register", "tile_toml"]
+
+
+def register(sub):
+    """Add the `tile` subcommand to the parser."""
+    t = sub.add_parser("tile", help="analyse, tune or calibrate a resonator tile")
+    t.add_argument("stack", help="stack file holding one tile layer")
+    t.add_argument("--fmin", type=float, default=10.0)
+    t.add_argument("--fmax", type=float, default=5000.0)
+    t.add_argument("--profile", type=float, default=None, metavar="F",
+                   help="print a cell's radial displacement profile at F Hz")
+    t.add_argument("--cell", type=int, default=1, help="cell kind (1-based) to tune or fit")
+    t.add_argument("--tune-peak", default=None, metavar="FREQ",
+                   help='target frequency of the first TL peak, e.g. "180Hz"')
+    t.add_argument("--vary", choices=("mass", "tension", "radius"), default="mass")
+    t.add_argument("--fit", default=None, metavar="MEASURED.csv",
+                   help="fit tension and loss factor to a tube TL (frequency_hz,tl_db)")
+    t.add_argument("--fit-mass", action="store_true", help="fit the central mass too")
+    t.add_argument("-o", "--output", default=None, help="file for the tuned or fitted tile")
+    t.add_argument("--force", action="store_true", help="replace an existing output file")
+    t.set_defaults(func=cmd_tile)
+
+
+def _the_tile(stack, path):
+    from .errors import InputError
+    from .layers.resonators import Tile
+
+    idx = [i for i, layer in enumerate(stack.layers) if isinstance(layer, Tile)]
+    if len(idx) != 1:
+        raise InputError(str(path), "layer", f"expected exactly one tile layer, found "
+                                              f"{len(idx)}")
+    return idx[0], stack.layers[idx[0]]
+
+
+def tile_toml(tile, title: str) -> str:
+    """A stack file holding the tile, values written with units."""
+    lines = [f"# {title}", "", "[[layer]]", 'type = "tile"', f'frame = "{tile.frame}"',
+             f'pitch = "{tile.pitch * 1e3:.6g} mm"']
+    if tile.frame_areal_mass:
+        lines.append(f'frame_areal_mass = "{tile.frame_areal_mass:.6g} kg/m^2"')
+    if tile.tile_thickness:
+        lines.append(f'thickness = "{tile.tile_thickness * 1e3:.6g} mm"')
+    for c in tile.cells:
+        lines += ["", "[[layer.cell]]", f"share = {c.share:.6g}",
+                  f'radius = "{c.radius * 1e3:.6g} mm"',
+                  f'membrane_thickness = "{c.membrane_thickness * 1e3:.6g} mm"',
+                  f'membrane_density = "{c.membrane_density:.6g} kg/m^3"',
+                  f'tension = "{c.tension:.6g} N/m"', f'mass = "{c.mass * 1e3:.6g} g"',
+                  f'mass_radius = "{c.mass_radius * 1e3:.6g} mm"',
+                  f"loss_factor = {c.loss_factor:.6g}"]
+    return "\n".join(lines) + "\n"
+
+
+def _write_new(path: Path, text: str, source: Path, force: bool):
+    from .errors import InputError
+    from .writing import atomic_write_text
+
+    if path.resolve() == source.resolve():
+        raise InputError(str(path), "--output", "would overwrite the input file; choose "
+                                                "another name")
+    if path.exists() and not force:
+        raise InputError(str(path), "--output", "exists; use --force to replace it")
+    atomic_write_text(path, text)
+
+
+def _read_measured(path):
+    import numpy as np
+
+    from .errors import InputError
+
+    try:
+        lines = Path(path).read_text(encoding="utf-8").strip().splitlines()
+    except FileNotFoundError:
+        raise InputError(str(path), "", "file not found") from None
+    if not lines or [h.strip() for h in lines[0].split(",")] != ["frequency_hz", "tl_db"]:
+        raise InputError(str(path), "header", "expected the header 'frequency_hz,tl_db'")
+    rows = []
+    for n, line in enumerate(lines[1:], start=2):
+        try:
+            f, tl = (float(v) for v in line.split(","))
+        except ValueError:
+            raise InputError(str(path), f"line {n}", f"expected two numbers, got "
+                                                     f"{line!r}") from None
+        if not (f > 0 and np.isfinite(tl)):
+            raise InputError(str(path), f"line {n}", "frequency must be > 0, TL finite")
+        rows.append((f, tl))
+    if len(rows) < 5:
+        raise InputError(str(path), "", f"need at least 5 measured points, got {len(rows)}")
+    data = np.array(sorted(rows))
+    return data[:, 0], data[:, 1]
+
+
+def cmd_tile(args) -> int:
+    """Analyse, tune or calibrate the tile in a stack file."""
+    import numpy as np
+
+    from .errors import InputError
+    from .stackfile import load_stack
+    from .textout import format_table
+    from .tiles import TuningError, fit_tile, mass_law_tl, tile_extrema, tune_peak
+    from .units import parse_quantity
+
+    path = Path(args.stack)
+    stack = load_stack(path)
+    _, tile = _the_tile(stack, path)
+    air = stack.source_air
+    cell = args.cell - 1
+    if not 0 <= cell < len(tile.cells):
+        raise InputError(str(path), "--cell", f"no cell kind {args.cell}; the tile has "
+                                              f"{len(tile.cells)}")
+    out_note = None
+    if args.tune_peak:
+        target = parse_quantity(args.tune_peak.replace("Hz", " Hz").replace("  ", " "),
+                                "frequency", "", "--tune-peak")
+        try:
+            tile, value = tune_peak(tile, target, args.vary, cell, air)
+        except TuningError as exc:
+            raise InputError(str(path), "--tune-peak", str(exc)) from None
+        unit = {"mass": (1e3, "g"), "tension": (1.0, "N/m"), "radius": (1e3, "mm")}[args.vary]
+        print(f"tuned {args.vary} of cell {args.cell}: {value * unit[0]:.5g} {unit[1]} puts "
+              f"the first TL peak at {target:g} Hz")
+        out_note = f"tile tuned: first TL peak at {target:g} Hz by {args.vary}"
+    if args.fit:
+        f, tl = _read_measured(args.fit)
+        res = fit_tile(tile, f, tl, args.fit_mass, cell, air)
+        tile = res.tile
+        rows = []
+        for name, v, lo, hi in zip(res.names, res.values, res.lower, res.upper, strict=True):
+            scale, unit = {"tension": (1.0, "N/m"), "loss_factor": (1.0, "-"),
+                           "mass": (1e3, "g")}[name]
+            rows.append((name, f"{v * scale:.4g}", f"{lo * scale:.4g} .. {hi * scale:.4g}",
+                         unit))
+        print(f"fit to {args.fit} ({len(f)} points)")
+        print(format_table(["parameter", "fitted", "95 % interval", "unit"], rows))
+        print(f"RMS residual {res.rms_db:.2f} dB; first dip off by {res.dip_error_pct:+.2f} %, "
+              f"first peak off by {res.peak_error_pct:+.2f} %")
+        out_note = f"tile fitted to {Path(args.fit).name}"
+    ext = tile_extrema(tile, args.fmin, args.fmax, air)
+    m = tile.areal_mass
+    print(f"\n{path}: tile, {tile.frame} grid, pitch {tile.pitch * 1e3:g} mm, "
+          f"{len(tile.cells)} cell kind(s), areal mass {m:.3f} kg/m^2 (normal incidence)")
+    print(format_table(["TL dip (Hz)", "TL (dB)"], list(zip(ext.dip_hz, ext.dip_db,
+                                                            strict=True))))
+    if ext.peak_hz.size:
+        fp, tp = ext.peak_hz[0], ext.peak_db[0]
+        gain = tp - mass_law_tl(m, [fp], air)[0]
+        print(f"\nfirst TL peak {fp:.1f} Hz, {tp:.1f} dB: {gain:+.1f} dB over the mass law of "
+              f"{m:.3f} kg/m^2")
+    else:
+        print(f"\nno TL peak between {args.fmin:g} and {args.fmax:g} Hz")
+    if args.profile:
+        c = tile.cells[cell]
+        r = np.linspace(0, c.radius, 11)
+        w = c.displacement_profile(2 * np.pi * args.profile, r)
+        mean = c.effective_mass(np.array([2 * np.pi * args.profile]))[0]
+        print(f"\ncell {args.cell} at {args.profile:g} Hz, clamped rim, 1 Pa: "
+              f"effective mass {mean.real:.4g} kg/m^2")
+        print(format_table(["r (mm)", "Re w (um)", "Im w (um)"],
+                           [(float(ri * 1e3), float(wi.real * 1e6), float(wi.imag * 1e6))
+                            for ri, wi in zip(r, w, strict=True)], digits=4))
+        print("(where the disk and the rim annulus move in opposite senses the area-averaged "
+              "displacement can vanish: that is the TL peak)")
+    if out_note:
+        out = Path(args.output) if args.output else path.with_name(f"{path.stem}-tuned.toml"
+                                                                    if args.tune_peak else
+                                                                    f"{path.stem}-fitted.toml")
+        _write_new(out, tile_toml(tile, out_note), path, args.force)
+        print(f"\nwrote {out}", file=sys.stderr)
+    return 0
