@@ -101,45 +101,55 @@ class Cell:
         return 2.404825557695773 / (2 * np.pi * self.radius) * np.sqrt(
             self.tension / self.surface_density)
 
-    def _solve(self, omega, p_m, f_d):
-        """Coefficients A, B, q and k for membrane pressure p_m and disk force f_d."""
+    def _bessel(self, omega):
+        """k, complex tension and the Bessel values at ka and k r0, computed once."""
         omega = np.asarray(omega, dtype=float)
         t = self.tension * (1 + 1j * self.loss_factor)
         k = omega * np.sqrt(self.surface_density / t)
-        a, r0, md = self.radius, self.mass_radius, self.disk_mass
-        q = p_m / (k**2 * t)
-        j0a, y0a = special.jv(0, k * a), special.yv(0, k * a)
-        if r0 == 0.0:
-            return q / j0a, np.zeros_like(k), q, k
-        j0r, y0r = special.jv(0, k * r0), special.yv(0, k * r0)
-        j1r, y1r = special.jv(1, k * r0), special.yv(1, k * r0)
-        c1 = -(omega**2) * md * j0r + 2 * np.pi * r0 * t * k * j1r
-        c2 = -(omega**2) * md * y0r + 2 * np.pi * r0 * t * k * y1r
-        rhs = f_d - omega**2 * md * q
-        det = j0a * c2 - y0a * c1
-        return (q * c2 - y0a * rhs) / det, (j0a * rhs - q * c1) / det, q, k
+        ka, kr = k * self.radius, k * self.mass_radius
+        b = {"j0a": special.jv(0, ka), "j1a": special.jv(1, ka)}
+        if self.mass_radius > 0:
+            b.update(y0a=special.yv(0, ka), y1a=special.yv(1, ka), j0r=special.jv(0, kr),
+                     j1r=special.jv(1, kr), y0r=special.yv(0, kr), y1r=special.yv(1, kr))
+        return omega, t, k, b
 
-    def response(self, omega, p_m, f_d):
+    def _solve(self, pre, p_m, f_d):
+        """Coefficients A, B, q for membrane pressure p_m and disk force f_d."""
+        omega, t, k, b = pre
+        q = p_m / (k**2 * t)
+        if self.mass_radius == 0.0:
+            return q / b["j0a"], 0.0, q
+        r0, md = self.mass_radius, self.disk_mass
+        c1 = -(omega**2) * md * b["j0r"] + 2 * np.pi * r0 * t * k * b["j1r"]
+        c2 = -(omega**2) * md * b["y0r"] + 2 * np.pi * r0 * t * k * b["y1r"]
+        rhs = f_d - omega**2 * md * q
+        det = b["j0a"] * c2 - b["y0a"] * c1
+        return (q * c2 - b["y0a"] * rhs) / det, (b["j0a"] * rhs - q * c1) / det, q
+
+    def response(self, omega, p_m, f_d, pre=None):
         """Annulus volume displacement and disk displacement for the loads.
 
         Returns ``(vol_annulus, disk)``: ``int w dA`` over ``r0 < r < a`` (m^3) and ``W``.
+        ``pre`` reuses the Bessel values of :meth:`_bessel` for several load cases.
         """
+        pre = pre or self._bessel(omega)
+        _, _, k, b = pre
         a, r0 = self.radius, self.mass_radius
-        amp_a, amp_b, q, k = self._solve(omega, p_m, f_d)
-        vol = (2 * np.pi * (amp_a * (a * special.jv(1, k * a) - r0 * special.jv(1, k * r0))
-                            + amp_b * (a * special.yv(1, k * a) - r0 * special.yv(1, k * r0)
-                                       if r0 > 0 else 0.0)) / k
-               - q * np.pi * (a**2 - r0**2))
+        amp_a, amp_b, q = self._solve(pre, p_m, f_d)
         if r0 == 0.0:
+            vol = 2 * np.pi * amp_a * a * b["j1a"] / k - q * np.pi * a**2
             return vol, np.zeros_like(vol)
-        disk = amp_a * special.jv(0, k * r0) + amp_b * special.yv(0, k * r0) - q
-        return vol, disk
+        vol = (2 * np.pi * (amp_a * (a * b["j1a"] - r0 * b["j1r"])
+                            + amp_b * (a * b["y1a"] - r0 * b["y1r"])) / k
+               - q * np.pi * (a**2 - r0**2))
+        return vol, amp_a * b["j0r"] + amp_b * b["y0r"] - q
 
     def displacement_profile(self, omega: float, r, pressure: float = 1.0):
         """Radial displacement w(r) in m under a uniform pressure (clamped rim)."""
         r = np.asarray(r, dtype=float)
-        amp_a, amp_b, q, k = self._solve(np.asarray(omega), pressure,
-                                         pressure * np.pi * self.mass_radius**2)
+        pre = self._bessel(np.asarray(omega, dtype=float))
+        amp_a, amp_b, q = self._solve(pre, pressure, pressure * np.pi * self.mass_radius**2)
+        k = pre[2]
         w = amp_a * special.jv(0, k * r) - q
         if self.mass_radius > 0:
             w = w + amp_b * special.yv(0, k * np.maximum(r, self.mass_radius))
@@ -215,10 +225,14 @@ class Tile(Layer):
         inertia_u = self.frame_areal_mass * area
         coupling = 0.0
         unit = []
+        shared = {}  # kinds that differ only in mass share their Bessel values
         for c in self.cells:  # loop over cell kinds, not frequencies
             r0a = np.pi * c.mass_radius**2
-            vp, wp = c.response(omega, pressure, pressure * r0a)   # pressure load
-            vu, wu = c.response(omega, omega**2 * c.surface_density, omega**2 * c.disk_mass)
+            key = (c.surface_density, c.tension, c.loss_factor, c.radius, c.mass_radius)
+            pre = shared.get(key) or shared.setdefault(key, c._bessel(omega))
+            vp, wp = c.response(omega, pressure, pressure * r0a, pre)  # pressure load
+            vu, wu = c.response(omega, omega**2 * c.surface_density, omega**2 * c.disk_mass,
+                                pre)  # inertial load of a unit grid displacement
             unit.append((c, vp, wp, vu, wu, r0a))
             rel = rel + c.share * (vp + wp * r0a)
             inertia_u = inertia_u + c.share * (c.surface_density * np.pi
