@@ -17,7 +17,7 @@ $(STAMP): pyproject.toml | $(BIN)/python
 	touch $(STAMP)
 
 demo: $(STAMP)
-	$(BIN)/noisebudget tl examples/sidewall.toml --bands third
+	$(BIN)/noisebudget demo -o demo-output --force
 
 test: $(STAMP)
 	$(BIN)/ruff check .
