@@ -32,9 +32,10 @@ def _svg(fig) -> str:
     return re.sub(r"<!--.*?-->", "", text[text.index("<svg"):], flags=re.S)
 
 
-def _log_axis(ax, bands):
+def _log_axis(ax, bands, sparse=False):
     ax.set_xscale("log")
-    ticks = [b for b in bands if b in (63, 125, 250, 500, 1000, 2000, 4000, 8000)]
+    marks = (125, 500, 2000) if sparse else (63, 125, 250, 500, 1000, 2000, 4000, 8000)
+    ticks = [b for b in bands if b in marks]
     ax.set_xticks(ticks)
     ax.set_xticklabels([f"{t:g}" for t in ticks])
     ax.minorticks_off()
@@ -50,7 +51,7 @@ def tl_figure(tl, packages) -> str:
         for p in packages:
             d = tl[(tl["package"] == p) & (tl["zone"] == zone)]
             ax.plot(d["band_hz"], d["tl_db"], marker=".", lw=1, label=p)
-        _log_axis(ax, d["band_hz"].tolist())
+        _log_axis(ax, d["band_hz"].tolist(), sparse=len(zones) > 1)
         ax.set_title(zone)
     axes[0][0].set_ylabel("TL (dB)")
     axes[0][-1].legend(fontsize=6)
