@@ -164,6 +164,9 @@ def compute_budget(inp: StudyInputs) -> StudyResult:
     for pkg in inp.packages:  # loop over packages and zones: a handful each
         stacks = [pkg.stacks[z.name] for z in zones]
         tl_z = np.array([band_tl(s) for s in stacks])
+        tone_f = np.unique(np.concatenate([c.tones_hz for c in inp.conditions]))
+        tone_tau = (np.array([s.average_transmission(tone_f, inp.incidence, inp.theta_max_deg)
+                              for s in stacks]) if tone_f.size else None)  # (nz, n_tones)
         tau_z = 10 ** (-tl_z / 10)
         absorption = cabin_a.copy()
         if inp.include_package_absorption:
@@ -192,8 +195,7 @@ def compute_budget(inp: StudyInputs) -> StudyResult:
             energy = 10 ** (per_zone / 10)
             for f_t, l_t in zip(cond.tones_hz, cond.tone_levels_db, strict=True):
                 b = cond.bands.containing([f_t])[0]
-                tau_t = np.array([s.average_transmission([f_t], inp.incidence,
-                                                         inp.theta_max_deg)[0] for s in stacks])
+                tau_t = tone_tau[:, np.searchsorted(tone_f, f_t)]
                 tone_z = (l_t + shift + 10 * np.log10(np.maximum(tau_t, 1e-30))
                           + 10 * np.log10(areas / absorption[sel][b]))
                 energy[:, b] += 10 ** (tone_z / 10)

@@ -23,7 +23,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from .bands import Bands, band_average
-from .incidence import INCIDENCE, default_theta_max_deg, paris_nodes
+from .incidence import INCIDENCE, default_theta_max_deg, paris_average
 from .layers.base import FluidElement, Layer, SheetElement
 from .media import Air
 
@@ -36,14 +36,21 @@ def _fluid_matrix(el: FluidElement, omega, kt):
     """Scaled entries of a fluid layer's matrix and the log of the scale."""
     rho, bulk, dd = el.density, el.bulk_modulus, el.thickness
     kz2 = omega**2 * rho / bulk - kt**2
-    x = np.sqrt(kz2 + 0j) * dd
-    y = np.abs(x.imag)
-    e1 = np.exp(1j * x.real - x.imag - y)
-    e2 = np.exp(-1j * x.real + x.imag - y)
+    x = np.sqrt(kz2 + 0j)
+    x *= dd
+    # cos and sinc are even in x: take the root with Im x >= 0, so that exp(j x) decays;
+    # with y = Im x, e1 = exp(j x - y) and e2 = exp(-j x - y) are bounded by 1
+    np.negative(x, out=x, where=x.imag < 0)
+    y = x.imag.copy()
+    e2 = np.exp(-1j * x.real)           # exp(-j x - y)
+    e1 = e2.conj()
+    e1 *= np.exp(-2 * y)                # exp(j x - y)
     cs = (e1 + e2) / 2
-    sn = (e1 - e2) / 2j
     small = np.abs(x) < 1e-6
-    sinc = np.where(small, (1 - x**2 / 6) * np.exp(-y), sn / np.where(small, 1.0, x))
+    sinc = (e1 - e2) / 2j               # sin(x) exp(-y)
+    np.divide(sinc, x, out=sinc, where=~small)
+    if small.any():
+        sinc[small] = ((1 - x**2 / 6) * np.exp(-y))[small]
     m12 = 1j * omega * rho * dd * sinc
     m21 = 1j * kz2 * dd * sinc / (omega * rho)
     return cs, m12, m21, y
@@ -171,20 +178,26 @@ class Stack:
         return self._tau(2 * np.pi * f[:, None], th[None, :])
 
     def sharp_trace_wavenumbers(self, omega) -> np.ndarray | None:
-        """Split points for the angle quadrature, (nf, p), from every layer."""
+        """Split points for the angle quadrature, (nf, p): every layer's sharp trace
+        wavenumbers, and the receiving air's wavenumber when it is below the source's
+        (beyond that critical angle the transmitted wave is evanescent: tau has a
+        square-root edge there and is zero past it)."""
         parts = [r for layer in self.layers
                  if (r := layer.trace_resonances(omega)) is not None]
+        if self.receiver_air.sound_speed > self.source_air.sound_speed:
+            parts.append(omega / self.receiver_air.sound_speed)
         if not parts:
             return None
         return np.concatenate([np.broadcast_to(r, (omega.shape[0], r.shape[-1]))
                                for r in parts], axis=1)
 
     def average_transmission(self, f_hz, incidence: str = "field",
-                             theta_max_deg: float | None = None, n_angles: int = 20):
+                             theta_max_deg: float | None = None, rtol: float = 3e-3):
         """Incidence-averaged transmission coefficient, shape (nf,).
 
         ``normal`` evaluates theta = 0; ``field`` (default limit 78 deg) and ``diffuse``
-        (90 deg) apply Paris' formula with :func:`noisebudget.incidence.paris_nodes`.
+        (90 deg) apply Paris' formula with the adaptive quadrature of
+        :func:`noisebudget.incidence.paris_average` to relative accuracy ``rtol``.
         """
         if incidence not in INCIDENCE:
             raise ValueError(f"incidence must be one of {INCIDENCE}, got {incidence!r}")
@@ -197,14 +210,14 @@ class Stack:
             raise ValueError(f"theta_max_deg must lie in (0, 90], got {theta_max_deg}")
         omega = 2 * np.pi * f[:, None]
         k0 = omega[:, 0] / self.source_air.sound_speed
-        theta, weight = paris_nodes(k0, self.sharp_trace_wavenumbers(omega),
-                                    np.radians(theta_max_deg), n_angles)
-        return np.sum(self._tau(omega, theta) * weight, axis=1)
+        return paris_average(lambda rows, theta: self._tau(omega[rows], theta), k0,
+                             self.sharp_trace_wavenumbers(omega), np.radians(theta_max_deg),
+                             rtol)
 
     def transmission_loss(self, f_hz, incidence: str = "field",
-                          theta_max_deg: float | None = None, n_angles: int = 20):
+                          theta_max_deg: float | None = None, rtol: float = 3e-3):
         """Transmission loss ``TL = -10 lg tau`` in dB, shape (nf,), capped at 300 dB."""
-        tau = self.average_transmission(f_hz, incidence, theta_max_deg, n_angles)
+        tau = self.average_transmission(f_hz, incidence, theta_max_deg, rtol)
         return -10 * np.log10(np.maximum(tau, 10 ** (-TL_CAP_DB / 10)))
 
     def band_transmission_loss(self, bands: Bands, incidence: str = "field",
