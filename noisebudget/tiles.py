@@ -8,7 +8,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import optimize, stats
 
 from .layers.resonators import Tile
 from .media import Air
@@ -54,6 +53,8 @@ def tile_extrema(tile: Tile, fmin: float = 10.0, fmax: float = 10000.0,
     A log grid locates each extremum; ``scipy.optimize.minimize_scalar`` (bounded, in
     log f) refines it between the neighbouring grid points.
     """
+    from scipy import optimize
+
     f = np.geomspace(fmin, fmax, points)
     tl = normal_tl(tile, f, air)
     inner = np.arange(1, points - 1)
@@ -88,6 +89,8 @@ def tune_peak(tile: Tile, target_hz: float, vary: str = "mass", cell: int = 0,
     the parameter, bracketed by :data:`TUNING_BOUNDS`. Returns the tuned tile and the
     parameter value (SI). Raises TuningError when the bounds do not bracket the target.
     """
+    from scipy import optimize
+
     if vary not in TUNING_BOUNDS:
         raise TuningError(f"--vary must be one of {', '.join(TUNING_BOUNDS)}, got {vary!r}")
     c = tile.cells[cell]
@@ -161,6 +164,8 @@ def fit_tile(tile: Tile, f_hz, tl_db, fit_mass: bool = False, cell: int = 0,
     and Student's t. Also returns the RMS residual and the errors of the fitted model's
     first dip and peak frequencies against the measurement's, in percent.
     """
+    from scipy import optimize, stats
+
     f = np.asarray(f_hz, dtype=float)
     y = np.asarray(tl_db, dtype=float)
     names = ("tension", "loss_factor") + (("mass",) if fit_mass else ())

@@ -43,13 +43,33 @@ def test_workbook_reads_back_equal(demo_out):
     ws = wb["Summary"]
     header = [c.value for c in ws[1]]
     assert "interior dBA" in header and "added mass (kg)" in header
-    col = header.index("interior dBA")
-    got = [r[col].value for r in ws.iter_rows(min_row=2)]
-    assert got == pytest.approx(list(res.summary["interior_dba"]), abs=1e-9)
+    # every cell of the Summary equals the result table, matched by (package, condition)
+    table = res.summary.set_index(["package", "condition"])
+    from noisebudget.report.workbook import HEADERS
+    column_of = {HEADERS.get(c, c): c for c in res.summary.columns}
+    for row in ws.iter_rows(min_row=2, values_only=True):
+        record = dict(zip(header, row, strict=True))
+        expected = table.loc[(record["package"], record["condition"])]
+        for head, value in record.items():
+            col = column_of[head]
+            if col in ("package", "condition"):
+                continue
+            want = expected[col]
+            if want != want:  # NaN is written as an empty cell
+                assert value is None
+            else:
+                assert value == pytest.approx(want, abs=1e-9), head
+    assert ws.max_row - 1 == len(res.summary)
     tl = wb["TL"]
-    values = [r[3].value for r in tl.iter_rows(min_row=2)]
-    expected = res.tl.sort_values(["zone", "package", "band_hz"], kind="stable")["tl_db"]
-    assert values == pytest.approx(list(expected), abs=1e-9)
+    tl_table = res.tl.set_index(["package", "zone", "band_hz"])["tl_db"]
+    for package, zone, band, value in tl.iter_rows(min_row=2, values_only=True):
+        assert value == pytest.approx(tl_table.loc[(package, zone, band)], abs=1e-9)
+    # chart series point at the rows they are named after (study order kept)
+    chart = tl._charts[0]
+    first = chart.series[0].yVal.numRef.f  # e.g. 'TL'!$D$2:$D$22
+    lo = int(first.split(":")[0].split("$")[-1])
+    assert tl.cell(row=lo, column=2).value == "sidewall"
+    assert tl.cell(row=lo, column=1).value == "baseline"
     assert ws.freeze_panes == "A2"
     assert len(wb["Summary"]._charts) == 1 and len(wb["Bands"]._charts) == 1
     assert len(wb["TL"]._charts) == 1
@@ -66,7 +86,10 @@ def test_user_text_renders_inert(tmp_path):
     assert main(["run", str(study), "-o", str(out)]) == 0
     from noisebudget.report.pdf import render_html
     html = render_html(nb.run_study(study), study)
-    assert "<img src=" not in html and "&lt;img src=" in html and "<b>bold</b>" not in html
+    import re
+    assert "&lt;img src=" in html and "<b>bold</b>" not in html
+    sources = re.findall(r'<img src="([^"]*)"', html)
+    assert sources and all(s.startswith("data:image/svg+xml;base64,") for s in sources)
     pdf_text = PdfReader(out / "evil.pdf").pages[0].extract_text()
     assert "root:" not in pdf_text  # nothing of /etc/passwd
     wb = openpyxl.load_workbook(out / "evil.xlsx")
@@ -81,6 +104,8 @@ def test_fetcher_refuses_outside_files():
         safe_url_fetcher("file:///etc/passwd")
     with pytest.raises(ValueError, match="refused"):
         safe_url_fetcher("http://example.invalid/x.png")
+    with pytest.raises(ValueError, match="refused"):
+        safe_url_fetcher("data:text/html,<img src=x>")
     css = data_path("templates", "report.css").resolve().as_uri()
     assert safe_url_fetcher(css)["mime_type"] == "text/css"
 

@@ -17,8 +17,10 @@ def _plt():
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    plt.rcParams.update({"svg.fonttype": "path", "font.size": 8, "axes.grid": True,
-                         "grid.alpha": 0.3})
+    # text stays text in the SVG (searchable, small, fast to render); DejaVu ships with
+    # matplotlib and is on the machine for weasyprint
+    plt.rcParams.update({"svg.fonttype": "none", "font.family": "DejaVu Sans",
+                         "font.size": 8, "axes.grid": True, "grid.alpha": 0.3})
     return plt
 
 
@@ -87,7 +89,7 @@ def trade_plot(summary, condition, baseline) -> str:
     """Added mass against interior dBA; baseline marked, non-dominated packages joined."""
     plt = _plt()
     d = summary[summary["condition"] == condition].reset_index(drop=True)
-    fig, ax = plt.subplots(figsize=(4.6, 3.0))
+    fig, ax = plt.subplots(figsize=(3.6, 2.8))
     ax.scatter(d["added_mass_kg"], d["interior_dba"], zorder=3)
     for _, r in d.iterrows():
         ax.annotate(r["package"], (r["added_mass_kg"], r["interior_dba"]), fontsize=6,
@@ -164,7 +166,8 @@ def cross_section(stack, title) -> str:
         if t > cap:
             ax.plot([x + w / 2 - 1, x + w / 2 + 1], [0.35, 0.65], "k-", lw=1)
             ax.plot([x + w / 2, x + w / 2 + 2], [0.35, 0.65], "k-", lw=1)
-        ax.text(x + w / 2, 1.05 + 0.35 * (i % 2), f"{label}\n{t:.1f} mm", ha="center",
+        ax.text(x + w / 2, 1.05 + 0.35 * (i % 2), f"{label}\n{t:.2g} mm" if t < 1 else
+                f"{label}\n{t:.1f} mm", ha="center",
                 va="bottom", fontsize=5.5)
         x += w
     ax.set_xlim(-2, x + 2)

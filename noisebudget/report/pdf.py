@@ -13,7 +13,7 @@ from ..resources import data_path
 from ..writing import atomic_write_bytes
 from . import CAUTIONS
 
-__all__ = ["REFERENCES", "render_html", "safe_url_fetcher", "write_pdf"]
+__all__ = ["REFERENCES", "render_html", "safe_url_fetcher", "svg_data_uri", "write_pdf"]
 
 REFERENCES = [
     "J. F. Allard, N. Atalla, Propagation of Sound in Porous Media, 2nd ed., Wiley 2009 "
@@ -38,10 +38,22 @@ REFERENCES = [
 ]
 
 
+def svg_data_uri(svg: str) -> str:
+    """A figure's SVG as a self-contained data URI for an ``<img>``."""
+    import base64
+
+    return "data:image/svg+xml;base64," + base64.b64encode(svg.encode("utf-8")).decode()
+
+
 def safe_url_fetcher(url, *args, **kwargs):
-    """Serve only files inside the package's template folder; refuse everything else."""
+    """Serve only files inside the package's template folder and the report's own SVG
+    data URIs; refuse everything else (network, other files, other data)."""
+    import base64
     from urllib.parse import unquote, urlparse
 
+    prefix = "data:image/svg+xml;base64,"
+    if url.startswith(prefix):
+        return {"string": base64.b64decode(url[len(prefix):]), "mime_type": "image/svg+xml"}
     root = data_path("templates").resolve()
     parsed = urlparse(url)
     if parsed.scheme == "file":
@@ -101,10 +113,14 @@ def _context(result, study_path: Path) -> dict:
             seen.add(t)
             unique.append((label, t))
     figs["tiles"] = figures.tile_mass_figure(unique) if unique else None
-    stacks = []
+    stacks, drawn = [], {}
     for p in inp.packages:
         for z in inp.zones:
             st: Stack = p.stacks[z.name]
+            if id(st) in drawn:  # a zone taken over unchanged (based_on): say so once
+                stacks.append({"package": p.name, "zone": z.name, "same_as": drawn[id(st)]})
+                continue
+            drawn[id(st)] = p.name
             rows = [{"label": lab, "type": layer.type_name,
                      "thickness_mm": layer.thickness * 1e3, "mass": layer.areal_mass}
                     for layer, lab in zip(st.layers, st.labels, strict=True)]
@@ -142,6 +158,9 @@ def render_html(result, study_path: Path) -> str:
     env.filters["f1"] = lambda v: "-" if v is None or v != v else f"{v:.1f}"
     env.filters["f2"] = lambda v: "-" if v is None or v != v else f"{v:.2f}"
     env.filters["f0"] = lambda v: "-" if v is None or v != v else f"{v:.0f}"
+    env.filters["svg"] = svg_data_uri
+    env.filters["f3"] = lambda v: "-" if v is None or v != v else f"{v + 0.0:.3f}"
+    env.filters["mm"] = lambda v: f"{v:.2f}" if 0 < v < 1 else f"{v:.1f}"
     return env.get_template("report.html").render(**_context(result, study_path))
 
 

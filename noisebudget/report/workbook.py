@@ -9,6 +9,9 @@ from __future__ import annotations
 import io
 from pathlib import Path
 
+import numpy as np
+import pandas as pd
+
 from ..writing import atomic_write_bytes
 from . import CAUTIONS
 
@@ -78,19 +81,43 @@ def _scatter(title, x_title, y_title, log_x):
     return ch
 
 
-def _series_chart(ws, df, key, x_col, y_col, title, y_title, anchor):
-    """One chart with a series per value of ``key``; rows of df are in sheet order."""
+def _ordered(df, inp, keys):
+    """Rows sorted in the study's own order of conditions, packages and zones."""
+    order = {"condition": [c.name for c in inp.conditions],
+             "package": [p.name for p in inp.packages], "zone": [z.name for z in inp.zones]}
+    tmp = df.copy()
+    for k in keys:
+        if k in order:
+            tmp[k] = pd.Categorical(tmp[k], categories=order[k], ordered=True)
+    tmp = tmp.sort_values(keys, kind="stable")
+    for k in keys:
+        if k in order:
+            tmp[k] = tmp[k].astype(str)
+    return tmp.reset_index(drop=True)
+
+
+def _series_chart(ws, df, mask, key, x_col, y_col, title, x_title, y_title, anchor, log_x):
+    """A scatter chart with one series per value of ``key`` among the rows in ``mask``.
+
+    ``df`` is the sheet's table in sheet order; each series must be a contiguous run of
+    rows, which :func:`_ordered` guarantees.
+    """
     from openpyxl.chart import Reference, Series
 
-    ch = _scatter(title, HEADERS[x_col], y_title, True)
+    ch = _scatter(title, x_title, y_title, log_x)
     xc = list(df.columns).index(x_col) + 1
     yc = list(df.columns).index(y_col) + 1
-    rows = df.reset_index(drop=True)
-    for name, group in rows.groupby(key, sort=False):
-        lo, hi = group.index.min() + 2, group.index.max() + 2
+    sub = df[mask]
+    for name, group in sub.groupby(key, sort=False):
+        pos = group.index.to_numpy()
+        if not np.all(np.diff(pos) == 1):
+            raise AssertionError("chart series rows must be contiguous")
+        lo, hi = int(pos[0]) + 2, int(pos[-1]) + 2
         s = Series(Reference(ws, min_col=yc, min_row=lo, max_row=hi),
                    Reference(ws, min_col=xc, min_row=lo, max_row=hi), title=str(name))
         s.marker.symbol = "circle"
+        if not log_x:
+            s.graphicalProperties.line.noFill = True
         ch.series.append(s)
     ws.add_chart(ch, anchor)
 
@@ -98,34 +125,26 @@ def _series_chart(ws, df, key, x_col, y_col, title, y_title, anchor):
 def write_workbook(result, path: Path) -> None:
     """Write the workbook atomically."""
     from openpyxl import Workbook
-    from openpyxl.chart import Reference, Series
 
     inp = result.inputs
     wb = Workbook()
     wb.remove(wb.active)
-    ws = _sheet(wb, "Summary", result.summary)
-    ch = _scatter("Added mass against interior dBA", "added mass (kg)", "interior dBA", False)
-    cols = list(result.summary.columns)
-    for cond, group in result.summary.reset_index(drop=True).groupby("condition", sort=False):
-        s = Series(Reference(ws, min_col=cols.index("interior_dba") + 1,
-                             min_row=group.index.min() + 2, max_row=group.index.max() + 2),
-                   Reference(ws, min_col=cols.index("added_mass_kg") + 1,
-                             min_row=group.index.min() + 2, max_row=group.index.max() + 2),
-                   title=str(cond))
-        s.marker.symbol = "diamond"
-        s.graphicalProperties.line.noFill = True
-        ch.series.append(s)
-    ws.add_chart(ch, f"A{len(result.summary) + 4}")
-    bands = result.bands.sort_values(["condition", "package", "band_hz"], kind="stable")
+    summary = _ordered(result.summary, inp, ["condition", "package"])
+    ws = _sheet(wb, "Summary", summary)
+    _series_chart(ws, summary, np.ones(len(summary), bool), "condition", "added_mass_kg",
+                  "interior_dba", "Added mass against interior dBA", "added mass (kg)",
+                  "interior dBA", f"A{len(summary) + 4}", False)
+    bands = _ordered(result.bands, inp, ["condition", "package", "band_hz"])
     ws = _sheet(wb, "Bands", bands)
-    first = bands[bands["condition"] == inp.conditions[0].name]
-    _series_chart(ws, first, "package", "band_hz", "interior_db",
-                  f"Interior spectrum, {inp.conditions[0].name}", "interior (dB)", "K2")
-    tl = result.tl.sort_values(["zone", "package", "band_hz"], kind="stable")
+    first = inp.conditions[0].name
+    _series_chart(ws, bands, (bands["condition"] == first).to_numpy(), "package", "band_hz",
+                  "interior_db", f"Interior spectrum, {first}", HEADERS["band_hz"],
+                  "interior (dB)", "K2", True)
+    tl = _ordered(result.tl, inp, ["zone", "package", "band_hz"])
     ws = _sheet(wb, "TL", tl)
-    zone0 = tl[tl["zone"] == inp.zones[0].name]
-    _series_chart(ws, zone0, "package", "band_hz", "tl_db",
-                  f"Transmission loss, {inp.zones[0].name}", "TL (dB)", "F2")
+    zone0 = inp.zones[0].name
+    _series_chart(ws, tl, (tl["zone"] == zone0).to_numpy(), "package", "band_hz", "tl_db",
+                  f"Transmission loss, {zone0}", HEADERS["band_hz"], "TL (dB)", "F2", True)
     _sheet(wb, "Mass", result.mass)
     rows = []
     for p in inp.packages:
@@ -140,8 +159,6 @@ def write_workbook(result, path: Path) -> None:
                                              cv, _unit(cn)))
                         continue
                     rows.append((p.name, z.name, k, label, name, value, _unit(name)))
-    import pandas as pd
-
     inputs = pd.DataFrame(rows, columns=["package", "zone", "layer", "label", "parameter",
                                          "value (SI)", "unit"])
     _sheet(wb, "Inputs", inputs, {"label": 28, "parameter": 24})
