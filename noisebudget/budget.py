@@ -106,16 +106,10 @@ class StudyResult:
 
 
 def random_incidence_absorption(stack: Stack, f_hz) -> np.ndarray:
-    """Paris-averaged absorption of the stack seen from its source side (0-90 deg).
-
-    ``alpha_rand = 2 int alpha(theta) sin(theta) cos(theta) dtheta`` (Kuttruff, Room
-    Acoustics), by Gauss-Legendre in ``sin^2 theta``.
-    """
-    x, w = np.polynomial.legendre.leggauss(24)
-    u = (x + 1) / 2
-    theta = np.arcsin(np.sqrt(u))
-    alpha = stack.absorption_coefficient(f_hz, theta, backing="receiver")
-    return np.clip(alpha @ (w / 2), 0.0, 1.0)
+    """Random-incidence absorption of the stack seen from its source side (0-90 deg),
+    the energy it transmits counted as absorbed: see
+    :meth:`noisebudget.stack.Stack.random_incidence_absorption`."""
+    return stack.random_incidence_absorption(f_hz, "receiver")
 
 
 def interior_levels(incident_db, tl_by_zone_db, areas, absorption_m2):

@@ -17,9 +17,11 @@ def format_table(headers, rows, digits=1) -> str:
     cells = [[fmt_number(v, digits) for v in row] for row in rows]
     widths = [max(len(str(h)), *(len(r[i]) for r in cells)) if cells else len(str(h))
               for i, h in enumerate(headers)]
-    lines = ["  ".join(str(h).rjust(w) for h, w in zip(headers, widths, strict=True)),
+    text = ([not isinstance(v, (int, float)) for v in rows[0]] if rows
+            else [False] * len(headers))
+    lines = ["  ".join(str(h).ljust(w) if t else str(h).rjust(w)
+                       for h, w, t in zip(headers, widths, text, strict=True)),
              "  ".join("-" * w for w in widths)]
-    text = [not isinstance(v, (int, float)) for v in rows[0]] if rows else []
     lines += ["  ".join(c.ljust(w) if t else c.rjust(w)
                         for c, w, t in zip(r, widths, text, strict=True)) for r in cells]
     return "\n".join(lines)

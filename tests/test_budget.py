@@ -190,3 +190,71 @@ def test_run_writes_tables_and_refuses_to_overwrite(tmp_path, capsys):
     assert (out / "s-summary.csv").read_bytes() == before
     assert main(["run", str(path), "-o", str(out), "--force"]) == 0
     assert main(["check", str(path)]) == 0
+
+
+def test_random_incidence_absorption_of_a_limp_sheet():
+    # Seen from the cabin, a lossless limp sheet backed by free air "absorbs" exactly what
+    # it transmits: alpha(theta) = tau(theta), so the Paris average is the diffuse-field
+    # closed form ln(1 + a^2) / a^2 (Vigran 2008 eq. 6.109, integrated)
+    from noisebudget.budget import random_incidence_absorption
+    rc = Air().impedance
+    f = np.array([100.0, 400.0, 1600.0])
+    a = 2 * np.pi * f * 2.0 / (2 * rc)
+    got = random_incidence_absorption(nb.Stack([nb.Septum(2.0)]), f)
+    np.testing.assert_allclose(got, np.log(1 + a**2) / a**2, rtol=1e-3)
+
+
+def test_package_absorption_lowers_the_interior_level(tmp_path):
+    pkg = '''
+[[package]]
+name = "absorbing"
+[[package.zone.wall.layer]]
+type = "septum"
+surface_density = "10 kg/m^2"
+[[package.zone.wall.layer]]
+type = "porous"
+model = "jca"
+thickness = "50 mm"
+flow_resistivity = "10000 Pa*s/m^2"
+porosity = 0.98
+tortuosity = 1.05
+viscous_length = "100 um"
+thermal_length = "200 um"
+'''
+    plain, wet = tmp_path / "a.toml", tmp_path / "b.toml"
+    plain.write_text(one_zone_study(pkg))
+    wet.write_text(one_zone_study(pkg).replace('incidence = "normal"',
+                                                'incidence = "normal"\n'
+                                                'include_package_absorption = true'))
+    a = nb.run_study(plain).bands.set_index("band_hz")["interior_db"]
+    b = nb.run_study(wet).bands.set_index("band_hz")["interior_db"]
+    assert np.all(b <= a + 1e-12) and (a - b).loc[1000.0] > 1.0  # 20 m^2 of absorber added
+
+
+def test_stack_file_referenced_from_a_study(tmp_path):
+    (tmp_path / "wall.toml").write_text('[[layer]]\ntype = "septum"\n'
+                                        'surface_density = "10 kg/m^2"\n')
+    pkg = '[[package]]\nname = "septum"\n[package.zone.wall]\nstack = "wall.toml"\n'
+    inline, by_file = tmp_path / "a.toml", tmp_path / "b.toml"
+    inline.write_text(one_zone_study(SEPTUM_PKG))
+    by_file.write_text(one_zone_study(pkg))
+    r1, r2 = nb.run_study(inline), nb.run_study(by_file)
+    np.testing.assert_allclose(r1.bands["interior_db"], r2.bands["interior_db"])
+    assert any(p.endswith("wall.toml") for p in r2.files)  # hashed for the report
+    bad = tmp_path / "c.toml"
+    bad.write_text(one_zone_study(pkg.replace("wall.toml", "nope.toml")))
+    with pytest.raises(nb.InputError, match="package\\[1\\].zone.wall.stack: nope.toml: "
+                                            "file not found"):
+        nb.load_study(bad)
+
+
+def test_per_band_limit_margin(tmp_path):
+    extra = ("limit_bands_hz = [500, 630, 800, 1000]\nlimit_db = [60, 58, 56, 54]\n"
+             + SEPTUM_PKG)
+    path = tmp_path / "s.toml"
+    path.write_text(one_zone_study(extra.replace("[[package]]", "\n[[package]]")))
+    res = nb.run_study(path)
+    bands = res.bands.set_index("band_hz")["interior_db"]
+    expected = min(lim - bands.loc[b] for b, lim in zip([500.0, 630.0, 800.0, 1000.0],
+                                                       [60, 58, 56, 54], strict=True))
+    assert res.summary.iloc[0]["margin_limit_db"] == pytest.approx(expected)
