@@ -160,16 +160,23 @@ def _cabin(table, file, errors):
     return (arr if kind == "absorption_area" else sabine_area(volume, arr)), bands
 
 
-def _conditions(tables, file, errors):
-    out = []
+def _each_table(tables, name, file, errors):
+    """``(index, key path, table)`` of every ``[[name]]`` entry that is a table; problems
+    (none given, an entry that is not a table) go to ``errors``."""
     if not isinstance(tables, list) or not tables:
-        errors.append(InputError(file, "condition", "need at least one [[condition]]"))
-        return out
+        errors.append(InputError(file, name, f"need at least one [[{name}]]"))
+        return
     for i, t in enumerate(tables):
-        where = f"condition[{i + 1}]"
+        where = f"{name}[{i + 1}]"
         if not isinstance(t, dict):
             errors.append(InputError(file, where, "expected a table"))
             continue
+        yield i, where, t
+
+
+def _conditions(tables, file, errors):
+    out = []
+    for i, where, t in _each_table(tables, "condition", file, errors):
         _unknown(t, ("name", "bands_hz", "levels_db", "tone", "notes"), file, f"{where}.",
                  errors)
         bands = _bands(t.get("bands_hz", []), file, f"{where}.bands_hz", errors)
@@ -203,11 +210,7 @@ def _conditions(tables, file, errors):
 
 def _zones(tables, file, errors):
     out = []
-    if not isinstance(tables, list) or not tables:
-        errors.append(InputError(file, "zone", "need at least one [[zone]]"))
-        return out
-    for i, t in enumerate(tables):
-        where = f"zone[{i + 1}]"
+    for i, where, t in _each_table(tables, "zone", file, errors):
         _unknown(t, ("name", "area", "notes"), file, f"{where}.", errors)
         try:
             area = parse_quantity(t.get("area"), "area", file, f"{where}.area")
@@ -221,12 +224,8 @@ def _zones(tables, file, errors):
 
 def _packages(tables, zones, airs, file, base_dir, errors, files, catalog):
     out, sources = [], {}
-    if not isinstance(tables, list) or not tables:
-        errors.append(InputError(file, "package", "need at least one [[package]]"))
-        return out, sources
     by_name = {}
-    for i, t in enumerate(tables):
-        where = f"package[{i + 1}]"
+    for i, where, t in _each_table(tables, "package", file, errors):
         _unknown(t, ("name", "based_on", "installation_mass", "notes", "zone"), file,
                  f"{where}.", errors)
         name = str(t.get("name", f"package {i + 1}"))

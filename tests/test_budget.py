@@ -258,3 +258,11 @@ def test_per_band_limit_margin(tmp_path):
     expected = min(lim - bands.loc[b] for b, lim in zip([500.0, 630.0, 800.0, 1000.0],
                                                        [60, 58, 56, 54], strict=True))
     assert res.summary.iloc[0]["margin_limit_db"] == pytest.approx(expected)
+
+
+def test_entries_that_are_not_tables(tmp_path, capsys):
+    text = 'zone = ["wall"]\n' + one_zone_study(SEPTUM_PKG, zones="\n")
+    path = tmp_path / "bad.toml"
+    path.write_text(text)
+    assert main(["check", str(path)]) == 2
+    assert "zone[1]: expected a table" in capsys.readouterr().err
