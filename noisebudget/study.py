@@ -30,10 +30,9 @@ _STUDY = ("title", "programme", "revision", "author", "date", "baseline", "incid
 class LoadedStudy:
     """A validated study: the budget inputs plus the files it read (for hashes)."""
 
-    def __init__(self, inputs: StudyInputs, files: dict, stacks_source: dict):
+    def __init__(self, inputs: StudyInputs, files: dict):
         self.inputs = inputs
         self.files = files          # path -> sha256 of every input file
-        self.stacks_source = stacks_source
 
 
 def _sha256(path: Path) -> str:
@@ -223,7 +222,7 @@ def _zones(tables, file, errors):
 
 
 def _packages(tables, zones, airs, file, base_dir, errors, files, catalog):
-    out, sources = [], {}
+    out = []
     by_name = {}
     for i, where, t in _each_table(tables, "package", file, errors):
         _unknown(t, ("name", "based_on", "installation_mass", "notes", "zone"), file,
@@ -269,7 +268,6 @@ def _packages(tables, zones, airs, file, base_dir, errors, files, catalog):
                            "pressure": f"{air.pressure} Pa"}
             try:
                 stacks[zname] = parse_stack(data, sfile, "" if sfile != file else zw, catalog)
-                sources[(name, zname)] = sfile
             except InputErrors as exc:
                 errors.extend(exc.errors)
         for z in zones:
@@ -288,7 +286,7 @@ def _packages(tables, zones, airs, file, base_dir, errors, files, catalog):
             errors.append(InputError(file, f"{where}.name", f"duplicate package {name!r}"))
         by_name[name] = pkg
         out.append(pkg)
-    return out, sources
+    return out
 
 
 def _targets(table, file, errors):
@@ -332,7 +330,7 @@ def load_study(path) -> LoadedStudy:
     conditions = _conditions(data.get("condition"), file, errors)
     zones = _zones(data.get("zone"), file, errors)
     catalog = load_catalog()
-    packages, sources = _packages(data.get("package"), zones, (ext, cab), file, path.parent,
+    packages = _packages(data.get("package"), zones, (ext, cab), file, path.parent,
                                   errors, files, catalog)
     targets = _targets(data.get("targets"), file, errors)
     incidence = st.get("incidence", "field")
@@ -370,7 +368,7 @@ def load_study(path) -> LoadedStudy:
                          tuple(packages), baseline, cabin_a, cabin_bands, convention,
                          incidence, float(theta) if theta is not None else None,
                          bool(st.get("include_package_absorption", False)), targets, meta)
-    return LoadedStudy(inputs, files, sources)
+    return LoadedStudy(inputs, files)
 
 
 def run_study(path):

@@ -9,6 +9,7 @@ from hypothesis import strategies as st
 
 import noisebudget as nb
 from noisebudget.errors import ModelRangeWarning
+from noisebudget.layers import Cell, Tile
 from noisebudget.layers.base import SheetElement
 from noisebudget.media import Air
 from noisebudget.stack import cascade
@@ -185,6 +186,10 @@ _layer = st.one_of(
     st.builds(lambda d, s, rho: nb.Porous("jca-limp", d, s, 0.98, 1.05, 80e-6, 160e-6, rho),
               st.floats(1e-3, 0.3), st.floats(2e3, 2e5), st.floats(5.0, 60.0)),
     st.builds(lambda r, m: nb.Screen(r, m), st.floats(10.0, 5e3), st.floats(0.0, 0.5)),
+    st.builds(lambda t, m, eta, frame: Tile((Cell(0.01, 0.25e-3, 1150.0, t, m, 2e-3, eta),),
+                                           0.022, frame, 0.6),
+              st.floats(5.0, 500.0), st.floats(0.0, 2e-3), st.floats(0.005, 0.3),
+              st.sampled_from(["clamped", "floating"])),
 )
 _stacks = st.lists(_layer, min_size=1, max_size=5)
 _f = np.array([40.0, 250.0, 1600.0, 9000.0, 20000.0])
