@@ -76,13 +76,16 @@ def _read_measured(path):
     from .errors import InputError
 
     try:
-        lines = Path(path).read_text(encoding="utf-8").strip().splitlines()
+        text = Path(path).read_text(encoding="utf-8")
     except FileNotFoundError:
         raise InputError(str(path), "", "file not found") from None
+    numbered = [(n, line) for n, line in enumerate(text.splitlines(), start=1)
+                if line.strip() and not line.lstrip().startswith("#")]  # '#' comments
+    lines = [line for _, line in numbered]
     if not lines or [h.strip() for h in lines[0].split(",")] != ["frequency_hz", "tl_db"]:
         raise InputError(str(path), "header", "expected the header 'frequency_hz,tl_db'")
     rows = []
-    for n, line in enumerate(lines[1:], start=2):
+    for n, line in numbered[1:]:
         try:
             f, tl = (float(v) for v in line.split(","))
         except ValueError:

@@ -191,3 +191,15 @@ def test_bad_tile_inputs(tmp_path, capsys):
         assert main(["tile", str(p)]) == 2
         err = capsys.readouterr().err
         assert f"{p}: {key}" in err, err
+
+
+def test_shipped_tube_example_fits(tmp_path, capsys):
+    # the README's example: a synthetic tube measurement (tension 82 N/m, eta 0.045, with
+    # '#' comment lines) fitted from the shipped starting values
+    from noisebudget.resources import data_path
+    out = tmp_path / "fitted.toml"
+    assert main(["tile", str(data_path("examples", "tube-sample.toml")), "--fit",
+                 str(data_path("examples", "tube-demo.csv")), "-o", str(out)]) == 0
+    cell = nb.load_stack(out).layers[0].cells[0]
+    assert cell.tension == pytest.approx(82.0, rel=0.02)
+    assert cell.loss_factor == pytest.approx(0.045, rel=0.1)
