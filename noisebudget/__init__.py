@@ -10,9 +10,17 @@ from .media import Air, standard_atmosphere
 from .ratings import ratings
 from .stack import Stack
 from .stackfile import load_stack, parse_stack
-from .study import load_study, run_study
 
 __version__ = "0.1.0"
+
+
+def __getattr__(name):
+    """Study functions import pandas; load them on first use so the package imports fast."""
+    if name in ("load_study", "run_study"):
+        from . import study
+
+        return getattr(study, name)
+    raise AttributeError(f"module 'noisebudget' has no attribute {name!r}")
 
 __all__ = ["a_weighting", "c_weighting", "octave_bands", "ratings", "third_octave_bands",
            "Air", "AirGap", "InputError", "InputErrors", "ModelRangeWarning", "Plate",

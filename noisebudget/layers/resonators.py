@@ -39,7 +39,6 @@ from __future__ import annotations
 from dataclasses import dataclass, replace
 
 import numpy as np
-from scipy import special
 
 from .base import Field, Layer, LayerValueError, SheetElement
 
@@ -103,6 +102,8 @@ class Cell:
 
     def _bessel(self, omega):
         """k, complex tension and the Bessel values at ka and k r0, computed once."""
+        from scipy import special  # imported on first use: keeps the package import fast
+
         omega = np.asarray(omega, dtype=float)
         t = self.tension * (1 + 1j * self.loss_factor)
         k = omega * np.sqrt(self.surface_density / t)
@@ -147,6 +148,8 @@ class Cell:
     def displacement_profile(self, omega: float, r, pressure: float = 1.0):
         """Radial displacement w(r) in m under a uniform pressure (clamped rim)."""
         r = np.asarray(r, dtype=float)
+        from scipy import special
+
         pre = self._bessel(np.asarray(omega, dtype=float))
         amp_a, amp_b, q = self._solve(pre, pressure, pressure * np.pi * self.mass_radius**2)
         k = pre[2]
