@@ -113,6 +113,18 @@ def _context(result, study_path: Path) -> dict:
             seen.add(t)
             unique.append((label, t))
     figs["tiles"] = figures.tile_mass_figure(unique) if unique else None
+    tile_rows = []
+    if unique:
+        from ..tiles import mass_law_tl, tile_extrema
+
+        for label, t in unique:
+            ext = tile_extrema(t, 10.0, 5000.0)
+            if ext.peak_hz.size:
+                fp, tp = float(ext.peak_hz[0]), float(ext.peak_db[0])
+                tile_rows.append({"label": label, "mass": t.areal_mass, "peak_hz": fp,
+                                  "peak_db": tp,
+                                  "gain_db": tp - float(mass_law_tl(t.areal_mass, [fp])[0]),
+                                  "dip_hz": float(ext.dip_hz[0]) if ext.dip_hz.size else None})
     stacks, drawn = [], {}
     for p in inp.packages:
         for z in inp.zones:
@@ -145,7 +157,7 @@ def _context(result, study_path: Path) -> dict:
             "files": sorted(getattr(result, "files", {}).items()), "summary": summary_rows,
             "figs": figs, "stacks": stacks, "band_tables": band_tables,
             "cautions": CAUTIONS, "references": REFERENCES, "sources": sources,
-            "inputs": inp, "air": air, "baseline": inp.baseline,
+            "inputs": inp, "air": air, "baseline": inp.baseline, "tile_rows": tile_rows,
             "notes": {p.name: p.notes for p in inp.packages}}
 
 
