@@ -116,8 +116,9 @@ def band_average(func, bands: Bands, rtol: float = 3e-3, max_passes: int = 12) -
     """Band averages of a narrowband power quantity (e.g. tau), as energy.
 
     ``<q> = (1 / (f_u - f_l)) int q(f) df`` over each band (never an average of dB), by
-    adaptive 15-point Gauss-Kronrod quadrature (Kronrod 1965; QUADPACK): 15 points per
-    band to start, more than 8 per one-third octave; then the panel with the largest
+    adaptive 15-point Gauss-Kronrod quadrature (Kronrod 1965; QUADPACK): to start, one
+    15-point panel per one-third octave of the band (three in an octave band); then the
+    panel with the largest
     error estimate in every unconverged band is bisected, pass after pass, until the
     estimate is below ``rtol`` of the band value, so a resonance, a mass-air-mass dip or
     coincidence inside a band is resolved. ``func`` maps a 1-D frequency array to values
@@ -140,8 +141,12 @@ def band_average(func, bands: Bands, rtol: float = 3e-3, max_passes: int = 12) -
                            raw)
         return ik, err
 
-    band = np.arange(nb)
-    lo, hi = bands.lower.copy(), bands.upper.copy()
+    # at least one 15-point panel per one-third octave (three per octave band)
+    per = max(1, int(np.ceil(3 / bands.b)))
+    cuts = bands.lower[:, None] * (bands.upper / bands.lower)[:, None] ** (
+        np.arange(per + 1)[None, :] / per)
+    band = np.repeat(np.arange(nb), per)
+    lo, hi = cuts[:, :-1].ravel(), cuts[:, 1:].ravel()
     val, err = panels(lo, hi)
     for _ in range(max_passes):  # passes; each bisects one panel per unconverged band
         total = np.bincount(band, val, nb)

@@ -115,3 +115,20 @@ def test_band_average_resolves_mass_air_mass_dip():
     tau = s.transmission_coefficient(f, [0.0])[:, 0]
     assert got == pytest.approx(-10 * np.log10(np.mean(tau)), abs=0.02)
     assert got < np.mean(-10 * np.log10(tau)) - 0.5  # energy average: the dip dominates
+
+
+def test_band_average_samples_at_least_8_points_per_third_octave():
+    # issue requirement: >= 8 points per one-third octave inside the band, octaves too
+    for b in (nb.third_octave_bands(100, 1000), nb.octave_bands(125, 1000)):
+        seen = []
+
+        def record(f, seen=seen):
+            seen.append(np.asarray(f).copy())
+            return np.ones_like(f)
+
+        band_average(record, b)
+        f = np.concatenate(seen)
+        for lo, hi in zip(b.lower, b.upper, strict=True):
+            thirds = np.geomspace(lo, hi, int(round(3 / b.b)) + 1)
+            for a, c in zip(thirds[:-1], thirds[1:], strict=True):
+                assert np.count_nonzero((f > a) & (f < c)) >= 8
