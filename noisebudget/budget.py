@@ -148,11 +148,9 @@ def compute_budget(inp: StudyInputs) -> StudyResult:
     rows_sum, rows_band, rows_contrib, rows_tl, rows_mass, rows_rat, rows_tone = ([] for _ in
                                                                                   range(7))
     masses = {}
-    memo = {}  # zones shared between packages (based_on) are computed once
+    memo = _band_tl_all(inp, all_bands)  # zones shared between packages: computed once
 
     def band_tl(s):
-        if id(s) not in memo:
-            memo[id(s)] = s.band_transmission_loss(all_bands, inp.incidence, inp.theta_max_deg)
         return memo[id(s)]
 
     for pkg in inp.packages:  # loop over packages and zones: a handful each
@@ -244,6 +242,28 @@ def compute_budget(inp: StudyInputs) -> StudyResult:
                        pd.DataFrame(rows_tone, columns=["package", "condition", "tone_hz",
                                                         "exterior_db", "band_hz", "tl_db",
                                                         "interior_db"]))
+
+
+def _band_tl_all(inp: StudyInputs, bands: Bands) -> dict:
+    """Band TL of every distinct stack of the study, keyed by ``id(stack)``.
+
+    The stacks are independent, so they are computed on a small thread pool: numpy
+    releases the GIL inside its large array operations, which lets two cores share the
+    work.
+    """
+    import os
+    from concurrent.futures import ThreadPoolExecutor
+
+    unique = {id(s): s for p in inp.packages for s in p.stacks.values()}
+
+    def one(s):
+        return s.band_transmission_loss(bands, inp.incidence, inp.theta_max_deg)
+
+    workers = min(len(unique), os.cpu_count() or 1)
+    if workers <= 1:
+        return {k: one(s) for k, s in unique.items()}
+    with ThreadPoolExecutor(max_workers=workers) as pool:
+        return dict(zip(unique, pool.map(one, unique.values()), strict=True))
 
 
 def _a_at(f_hz):
