@@ -148,17 +148,16 @@ def compute_budget(inp: StudyInputs) -> StudyResult:
     rows_sum, rows_band, rows_contrib, rows_tl, rows_mass, rows_rat, rows_tone = ([] for _ in
                                                                                   range(7))
     masses = {}
-    memo = _band_tl_all(inp, all_bands)  # zones shared between packages: computed once
-
-    def band_tl(s):
-        return memo[id(s)]
-
+    band_tl = _band_tl_all(inp, all_bands)  # by id(stack): shared zones computed once
+    tone_f = np.unique(np.concatenate([c.tones_hz for c in inp.conditions]))
+    tone_tau = {}  # by id(stack): narrowband tau at every tone frequency of the study
     for pkg in inp.packages:  # loop over packages and zones: a handful each
         stacks = [pkg.stacks[z.name] for z in zones]
-        tl_z = np.array([band_tl(s) for s in stacks])
-        tone_f = np.unique(np.concatenate([c.tones_hz for c in inp.conditions]))
-        tone_tau = (np.array([s.average_transmission(tone_f, inp.incidence, inp.theta_max_deg)
-                              for s in stacks]) if tone_f.size else None)  # (nz, n_tones)
+        tl_z = np.array([band_tl[id(s)] for s in stacks])
+        for s in stacks:
+            if tone_f.size and id(s) not in tone_tau:
+                tone_tau[id(s)] = s.average_transmission(tone_f, inp.incidence,
+                                                         inp.theta_max_deg)
         tau_z = 10 ** (-tl_z / 10)
         absorption = cabin_a.copy()
         if inp.include_package_absorption:
@@ -187,7 +186,8 @@ def compute_budget(inp: StudyInputs) -> StudyResult:
             energy = 10 ** (per_zone / 10)
             for f_t, l_t in zip(cond.tones_hz, cond.tone_levels_db, strict=True):
                 b = cond.bands.containing([f_t])[0]
-                tau_t = tone_tau[:, np.searchsorted(tone_f, f_t)]
+                k = np.searchsorted(tone_f, f_t)
+                tau_t = np.array([tone_tau[id(s)][k] for s in stacks])
                 tone_z = (l_t + shift + 10 * np.log10(np.maximum(tau_t, 1e-30))
                           + 10 * np.log10(areas / absorption[sel][b]))
                 energy[:, b] += 10 ** (tone_z / 10)
