@@ -88,6 +88,9 @@ def _bands(values, file, where, errors):
 
 
 def _numbers(values, n, file, where, errors):
+    if values is None:
+        errors.append(InputError(file, where, "missing required key"))
+        return None
     if not isinstance(values, list) or not all(isinstance(v, (int, float))
                                                and not isinstance(v, bool) for v in values):
         errors.append(InputError(file, where, "levels must be a list of numbers (dB)"))
@@ -207,10 +210,13 @@ def _conditions(tables, file, errors):
     return out
 
 
-def _zones(tables, file, errors):
+def _zones(tables, file, errors, names):
+    """Valid zones; ``names`` receives every zone name, so that a zone with a bad area
+    does not also make each package's stack for it look unknown."""
     out = []
     for i, where, t in _each_table(tables, "zone", file, errors):
         _unknown(t, ("name", "area", "notes"), file, f"{where}.", errors)
+        names.append(str(t.get("name", f"zone {i + 1}")))
         try:
             area = parse_quantity(t.get("area"), "area", file, f"{where}.area")
             if area <= 0:
@@ -221,26 +227,28 @@ def _zones(tables, file, errors):
     return out
 
 
-def _packages(tables, zones, airs, file, base_dir, errors, files, catalog):
+def _packages(tables, zones, airs, file, base_dir, errors, files, catalog, zone_names):
     out = []
-    by_name = {}
+    by_name, failed_of = {}, {}
     for i, where, t in _each_table(tables, "package", file, errors):
         _unknown(t, ("name", "based_on", "installation_mass", "notes", "zone"), file,
                  f"{where}.", errors)
         name = str(t.get("name", f"package {i + 1}"))
         stacks = {}
+        failed = set()  # zones whose stack had errors (already reported)
         if "based_on" in t:
             if t["based_on"] not in by_name:
                 errors.append(InputError(file, f"{where}.based_on", f"no earlier package "
                                                                     f"{t['based_on']!r}"))
             else:
                 stacks.update(by_name[t["based_on"]].stacks)
+                failed |= failed_of[t["based_on"]]
         zt = t.get("zone", {})
         if not isinstance(zt, dict):
             errors.append(InputError(file, f"{where}.zone", "expected [package.zone.NAME] "
                                                             "tables"))
             zt = {}
-        names = [z.name for z in zones]
+        names = zone_names
         for zname, spec in zt.items():
             zw = f"{where}.zone.{zname}"
             if zname not in names:
@@ -261,6 +269,7 @@ def _packages(tables, zones, airs, file, base_dir, errors, files, catalog):
                 except InputError as exc:
                     errors.append(InputError(file, f"{zw}.stack", f"{spec['stack']}: "
                                                                   f"{exc.reason}"))
+                    failed.add(zname)
                     continue
             data = dict(data)
             for k, air in zip(("source_air", "receiver_air"), airs, strict=True):
@@ -270,8 +279,9 @@ def _packages(tables, zones, airs, file, base_dir, errors, files, catalog):
                 stacks[zname] = parse_stack(data, sfile, "" if sfile != file else zw, catalog)
             except InputErrors as exc:
                 errors.extend(exc.errors)
+                failed.add(zname)
         for z in zones:
-            if z.name not in stacks:
+            if z.name not in stacks and z.name not in failed:
                 errors.append(InputError(file, f"{where}.zone.{z.name}",
                                          "missing: every package needs a stack for every zone"))
         inst = 0.0
@@ -285,6 +295,7 @@ def _packages(tables, zones, airs, file, base_dir, errors, files, catalog):
         if name in by_name:
             errors.append(InputError(file, f"{where}.name", f"duplicate package {name!r}"))
         by_name[name] = pkg
+        failed_of[name] = failed - set(stacks)
         out.append(pkg)
     return out
 
@@ -328,10 +339,11 @@ def load_study(path) -> LoadedStudy:
     cab = _air(air.get("cabin"), file, "air.cabin", errors, Air(295.15, 101325.0))
     cabin_a, cabin_bands = _cabin(data.get("cabin"), file, errors)
     conditions = _conditions(data.get("condition"), file, errors)
-    zones = _zones(data.get("zone"), file, errors)
+    zone_names: list[str] = []
+    zones = _zones(data.get("zone"), file, errors, zone_names)
     catalog = load_catalog()
     packages = _packages(data.get("package"), zones, (ext, cab), file, path.parent,
-                                  errors, files, catalog)
+                         errors, files, catalog, zone_names)
     targets = _targets(data.get("targets"), file, errors)
     incidence = st.get("incidence", "field")
     if incidence not in ("normal", "field", "diffuse"):

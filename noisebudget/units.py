@@ -62,11 +62,12 @@ def parse_quantity(value, kind: str, file: str = "", key: str = "") -> float:
     """
     si, example = QUANTITIES[kind]
     label = kind.replace("_", " ")
+    article = "an" if label[0] in "aeiou" else "a"
     if isinstance(value, bool) or not isinstance(value, (str, int, float)):
-        raise InputError(file, key, f"expected a {label} with its unit such as {example}, "
+        raise InputError(file, key, f"expected {article} {label} with its unit such as {example}, "
                                     f"got {type(value).__name__} {value!r}")
     if isinstance(value, (int, float)):
-        raise InputError(file, key, f"bare number {value!r}: a {label} needs a unit, "
+        raise InputError(file, key, f"bare number {value!r}: {article} {label} needs a unit, "
                                     f"e.g. {example}")
     import pint
 
@@ -76,12 +77,12 @@ def parse_quantity(value, kind: str, file: str = "", key: str = "") -> float:
     except Exception as exc:  # pint raises several types for unreadable text
         raise InputError(file, key, f"cannot read {value!r} as a quantity ({exc})") from None
     if not isinstance(q, ureg.Quantity) or q.dimensionless and si != "":
-        raise InputError(file, key, f"{value!r} has no unit: a {label} needs one, "
+        raise InputError(file, key, f"{value!r} has no unit: {article} {label} needs one, "
                                     f"e.g. {example}")
     try:
         out = float(q.to(si).magnitude)
     except pint.DimensionalityError:
-        raise InputError(file, key, f"{value!r} is not a {label} (expected units of {si}, "
+        raise InputError(file, key, f"{value!r} is not {article} {label} (expected units of {si}, "
                                     f"e.g. {example})") from None
     if not math.isfinite(out):
         raise InputError(file, key, f"{value!r} is not a finite number")

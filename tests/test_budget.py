@@ -266,3 +266,19 @@ def test_entries_that_are_not_tables(tmp_path, capsys):
     path.write_text(text)
     assert main(["check", str(path)]) == 2
     assert "zone[1]: expected a table" in capsys.readouterr().err
+
+
+def test_one_mistake_gives_one_line(tmp_path, capsys):
+    # a mistyped catalog key in the baseline is reported where it is, not again as a
+    # "missing" zone in the packages based on it; a bad zone area does not make the
+    # packages' stacks for that zone look unknown
+    text = data_path("examples", "demo-study.toml").read_text()
+    text = text.replace('use = "skin.al2024-t3-1.27mm"', 'use = "skin.al2024-t3-1.25mm"', 1)
+    text = text.replace('area = "4.5 m^2"', 'area = "4.5"')
+    path = tmp_path / "typo.toml"
+    path.write_text(text)
+    assert main(["check", str(path)]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 2, err
+    assert "zone[2].area: '4.5' has no unit: an area needs one" in err[0]
+    assert "package[1].zone.crown.layer[1].use: unknown catalog entry" in err[1]
