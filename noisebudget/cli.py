@@ -100,6 +100,8 @@ def cmd_tl(args) -> int:
             r = out["ratings"]
             print(f"\nSTC {r['stc']}   Rw (C; Ctr) = {r['rw']} ({r['c']}; {r['ctr']}) dB   "
                   f"OITC {r['oitc']}")
+        print("\nEstimate for laterally infinite layers: no frames, leaks or flanking, which "
+              "limit measured TL, above all at high frequency. Certified tests govern.")
     for n in notes:
         print(f"note: {n}", file=sys.stderr)
     return 0
