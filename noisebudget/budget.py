@@ -23,11 +23,10 @@ import pandas as pd
 
 from .bands import Bands, a_weighting, energy_sum, third_to_octave
 from .ratings import RatingError, ratings, sil4
-from .stack import TL_CAP_DB, Stack
+from .stack import TL_CAP_DB
 
 __all__ = ["Condition", "Package", "StudyInputs", "StudyResult", "Zone",
-           "compute_budget", "interior_levels", "random_incidence_absorption",
-           "sabine_area"]
+           "compute_budget", "interior_levels", "sabine_area"]
 
 SURFACE_TO_INCIDENT_DB = 20 * np.log10(2.0)  # 6.02 dB: blocked surface pressure doubling
 
@@ -105,13 +104,6 @@ class StudyResult:
                 "ratings": self.ratings, "tones": self.tones}
 
 
-def random_incidence_absorption(stack: Stack, f_hz) -> np.ndarray:
-    """Random-incidence absorption of the stack seen from its source side (0-90 deg),
-    the energy it transmits counted as absorbed: see
-    :meth:`noisebudget.stack.Stack.random_incidence_absorption`."""
-    return stack.random_incidence_absorption(f_hz, "receiver")
-
-
 def interior_levels(incident_db, tl_by_zone_db, areas, absorption_m2):
     """Per-zone interior levels and their energy sum.
 
@@ -162,8 +154,9 @@ def compute_budget(inp: StudyInputs) -> StudyResult:
         absorption = cabin_a.copy()
         if inp.include_package_absorption:
             for s, z in zip(stacks, zones, strict=True):
-                absorption = absorption + z.area * random_incidence_absorption(
-                    s.reversed(), all_bands.centre)
+                # seen from the cabin; energy transmitted out counts as absorbed
+                absorption = absorption + z.area * s.reversed().random_incidence_absorption(
+                    all_bands.centre, "receiver")
         for s, z, tl in zip(stacks, zones, tl_z, strict=True):
             rows_tl += [{"package": pkg.name, "zone": z.name, "band_hz": b, "tl_db": t}
                         for b, t in zip(all_bands.nominal, tl, strict=True)]

@@ -155,22 +155,11 @@ def build_parser() -> argparse.ArgumentParser:
     c = sub.add_parser("catalog", help="list catalog entries or show one")
     c.add_argument("key", nargs="?", default=None)
     c.set_defaults(func=cmd_catalog)
-    _extend(sub)
+    from . import cli_study, cli_tile
+
+    cli_tile.register(sub)
+    cli_study.register(sub)
     return p
-
-
-def _extend(sub):
-    """Subcommands of the later modules (tiles, studies), registered when present."""
-    from importlib import import_module
-
-    for name in ("cli_tile", "cli_study"):
-        try:
-            mod = import_module(f".{name}", __package__)
-        except ModuleNotFoundError as exc:
-            if exc.name != f"{__package__}.{name}":
-                raise
-            continue
-        mod.register(sub)
 
 
 def main(argv=None) -> int:

@@ -25,28 +25,19 @@ def register(sub):
 
 
 def write_outputs(result, study_path: Path, outdir: Path, force: bool) -> list[Path]:
-    """Write the CSV tables (and the reports, when available) atomically."""
+    """Write the CSV tables, the PDF and the workbook, each atomically."""
     from .errors import InputError
     from .writing import atomic_write_text
 
     outdir.mkdir(parents=True, exist_ok=True)
     stem = study_path.stem
     targets = {f"{stem}-{name}.csv": table for name, table in result.tables().items()}
-    reports = []
-    try:
-        from .report import report_targets
-    except ImportError:
-        report_targets = None
-    if report_targets is not None:
-        reports = report_targets(stem)
-    existing = [outdir / n for n in [*targets, *reports] if (outdir / n).exists()]
+    from .report import report_targets, write_reports
+
+    existing = [outdir / n for n in [*targets, *report_targets(stem)] if (outdir / n).exists()]
     if existing and not force:
         raise InputError(str(existing[0]), "", "exists; use --force to replace the outputs")
-    written = []
-    if report_targets is not None:
-        from .report import write_reports
-
-        written += write_reports(result, study_path, outdir, stem)
+    written = write_reports(result, study_path, outdir, stem)
     for name, table in targets.items():
         atomic_write_text(outdir / name, table.to_csv(index=False, float_format="%.3f"))
         written.append(outdir / name)

@@ -143,18 +143,26 @@ class Stack:
         return replace(self, layers=self.layers[::-1], labels=self.labels[::-1],
                        source_air=self.receiver_air, receiver_air=self.source_air)
 
-    def _tau(self, omega, theta):
-        """tau for omega (nf, 1) and source-side angles theta (nf, nth) or (1, nth)."""
-        air1, air2 = self.source_air, self.receiver_air
-        k1 = omega / air1.sound_speed
+    def _matrices(self, omega, theta):
+        """The cascade ``(a, b, c, d, log_scale)`` and the receiving air's normal
+        wavenumber for omega (nf, 1) and source-side angles theta (nf or 1, nth).
+
+        ``kz2 = sqrt(k2^2 - k1^2 sin^2 theta)`` is formed as ``k2^2 - k1^2 + (k1 cos)^2``,
+        exact at grazing in equal air, and taken as ``-j |.|`` where evanescent.
+        """
+        k1 = omega / self.source_air.sound_speed
         kt = k1 * np.sin(theta)
         elements = [layer.element(omega, kt, self.cavity_air) for layer in self.layers]
-        a, b, c, d, log_scale = cascade(elements, omega, kt)
-        cos1 = np.cos(theta)
-        y1 = cos1 / air1.impedance
-        arg2 = (omega / air2.sound_speed) ** 2 - k1**2 + (k1 * cos1) ** 2
+        arg2 = ((omega / self.receiver_air.sound_speed) ** 2 - k1**2
+                + (k1 * np.cos(theta)) ** 2)
         kz2 = np.where(arg2 >= 0, np.sqrt(np.abs(arg2)) + 0j, -1j * np.sqrt(np.abs(arg2)))
-        y2 = kz2 / (omega * air2.density)
+        return cascade(elements, omega, kt), kz2
+
+    def _tau(self, omega, theta):
+        """tau for omega (nf, 1) and source-side angles theta (nf, nth) or (1, nth)."""
+        (a, b, c, d, log_scale), kz2 = self._matrices(omega, theta)
+        y1 = np.cos(theta) / self.source_air.impedance
+        y2 = kz2 / (omega * self.receiver_air.density)
         den = a * y1 + b * y1 * y2 + c + d * y2
         with np.errstate(under="ignore"):
             return 4 * y1 * y2.real / np.abs(den) ** 2 * np.exp(-2 * log_scale)
@@ -225,8 +233,9 @@ class Stack:
                                rtol: float = 3e-3) -> np.ndarray:
         """Band TL: the incidence-averaged tau averaged as energy over each band.
 
-        Uses :func:`noisebudget.bands.band_average` (15 points per band to start, refined
-        where the band holds a resonance or coincidence); never an average of dB. The
+        Uses :func:`noisebudget.bands.band_average` (one 15-point panel per one-third
+        octave to start, refined where the band holds a resonance or coincidence); never
+        an average of dB. The
         angle integral inside runs at ``3 rtol``: the frequency integral averages its
         (conservatively estimated) error further.
         """
@@ -236,18 +245,13 @@ class Stack:
 
     def _surface(self, omega, theta, backing):
         """Normal surface impedance for omega (nf, 1) and angles theta (nf or 1, nth)."""
-        kt = omega / self.source_air.sound_speed * np.sin(theta)
-        elements = [layer.element(omega, kt, self.cavity_air) for layer in self.layers]
-        a, b, c, d, _ = cascade(elements, omega, kt)
+        if backing not in ("rigid", "receiver"):
+            raise ValueError("backing must be 'rigid' or 'receiver'")
+        (a, b, c, d, _), kz2 = self._matrices(omega, theta)
         if backing == "rigid":
             return a / c
-        if backing != "receiver":
-            raise ValueError("backing must be 'rigid' or 'receiver'")
-        air2 = self.receiver_air
-        arg2 = (omega / air2.sound_speed) ** 2 - kt**2
-        kz2 = np.where(arg2 >= 0, np.sqrt(np.abs(arg2)) + 0j, -1j * np.sqrt(np.abs(arg2)))
         with np.errstate(divide="ignore", invalid="ignore"):
-            z2 = omega * air2.density / kz2
+            z2 = omega * self.receiver_air.density / kz2
             return (a * z2 + b) / (c * z2 + d)
 
     def _alpha(self, omega, theta, backing):

@@ -77,10 +77,6 @@ def tile_extrema(tile: Tile, fmin: float = 10.0, fmax: float = 10000.0,
     return Extrema(dip_f, dip_v, peak_f, peak_v)
 
 
-def _set(tile: Tile, cell: int, name: str, value: float) -> Tile:
-    return tile.with_cell(cell, **{name: value})
-
-
 def tune_peak(tile: Tile, target_hz: float, vary: str = "mass", cell: int = 0,
               air: Air | None = None) -> tuple[Tile, float]:
     """Solve for the cell parameter that puts the first TL peak at ``target_hz``.
@@ -103,7 +99,8 @@ def tune_peak(tile: Tile, target_hz: float, vary: str = "mass", cell: int = 0,
     fmin, fmax = target_hz / 20, target_hz * 20
 
     def first_peak(x):
-        ext = tile_extrema(_set(tile, cell, vary, float(np.exp(x))), fmin, fmax, air, 1200)
+        ext = tile_extrema(tile.with_cell(cell, **{vary: float(np.exp(x))}), fmin, fmax,
+                           air, 1200)
         if ext.peak_hz.size == 0:
             # no peak in range: it lies below fmin or above fmax
             return np.nan
@@ -119,7 +116,7 @@ def tune_peak(tile: Tile, target_hz: float, vary: str = "mass", cell: int = 0,
     i = ok[0]
     x = optimize.brentq(first_peak, xs[i], xs[i + 1], xtol=1e-10, rtol=1e-10)
     value = float(np.exp(x))
-    return _set(tile, cell, vary, value), value
+    return tile.with_cell(cell, **{vary: value}), value
 
 
 @dataclass(frozen=True)

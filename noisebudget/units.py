@@ -30,7 +30,6 @@ QUANTITIES: dict[str, tuple[str, str]] = {
     "area": ("m^2", '"12.5 m^2"'),
     "volume": ("m^3", '"40 m^3"'),
     "time": ("s", '"0.6 s"'),
-    "areal_mass_rate": ("kg/m^2", '"0.3 kg/m^2"'),
 }
 
 

@@ -47,7 +47,6 @@ class Field:
     positive: bool = True
     choices: tuple[str, ...] = ()
     allow_zero: bool = False
-    help: str = ""
 
 
 @dataclass(frozen=True)

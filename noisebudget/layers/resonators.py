@@ -152,12 +152,11 @@ class Cell:
 
         pre = self._bessel(np.asarray(omega, dtype=float))
         amp_a, amp_b, q = self._solve(pre, pressure, pressure * np.pi * self.mass_radius**2)
-        k = pre[2]
+        k, b = pre[2], pre[3]
         w = amp_a * special.jv(0, k * r) - q
         if self.mass_radius > 0:
             w = w + amp_b * special.yv(0, k * np.maximum(r, self.mass_radius))
-            disk = amp_a * special.jv(0, k * self.mass_radius) + amp_b * special.yv(
-                0, k * self.mass_radius) - q
+            disk = amp_a * b["j0r"] + amp_b * b["y0r"] - q
             w = np.where(r < self.mass_radius, disk, w)
         return w
 
