@@ -123,6 +123,10 @@ def parse_layer(table, file: str, where: str, catalog, errors: list):
     cls = LAYER_TYPES[kind]
     before = len(errors)
     values = parse_fields(table, cls.schema, file, where, errors, skip=_LAYER_META)
+    for key in cls.required_by(table):
+        if key not in table:
+            errors.append(InputError(file, f"{where}.{key}", f"missing: model "
+                                     f"{table.get('model')!r} needs it"))
     if hasattr(cls, "parse_tables"):
         values = cls.parse_tables(values, file, where, errors)
     if len(errors) > before:

@@ -102,6 +102,12 @@ class Layer:
         return {f.name: getattr(self, f.name) for f in fields(self) if f.init}
 
     @classmethod
+    def required_by(cls, table: dict) -> tuple[str, ...]:
+        """Keys that other values of the table make required (e.g. a porous model's
+        parameters); the parser reports each one missing."""
+        return ()
+
+    @classmethod
     def from_values(cls, values: dict) -> Layer:
         """Build from a dict of SI values keyed as in the file schema."""
         return cls(**values)

@@ -20,6 +20,8 @@ __all__ = ["MODELS", "Porous", "delany_bazley", "jca_bulk_modulus", "jca_density
            "limp_density", "miki"]
 
 MODELS = ("delany-bazley", "miki", "jca", "jca-limp")
+_JCA = ("porosity", "tortuosity", "viscous_length", "thermal_length")
+NEEDS = {"jca": _JCA, "jca-limp": (*_JCA, "bulk_density")}  # keys each model requires
 
 
 def delany_bazley(f, flow_resistivity, rho0, c0):
@@ -137,9 +139,7 @@ class Porous(Layer):
         if self.model not in MODELS:
             raise LayerValueError("model", f"unknown porous model {self.model!r}; "
                                            f"one of {', '.join(MODELS)}")
-        need = {"jca": ("porosity", "tortuosity", "viscous_length", "thermal_length"),
-                "jca-limp": ("porosity", "tortuosity", "viscous_length", "thermal_length",
-                             "bulk_density")}.get(self.model, ())
+        need = NEEDS.get(self.model, ())
         for name in need:
             if getattr(self, name) is None:
                 raise LayerValueError(name, f"missing: model {self.model!r} needs "
@@ -183,6 +183,10 @@ class Porous(Layer):
     def element(self, omega, kt, air):
         rho, k = self.equivalent_fluid(omega, air)
         return FluidElement(rho, k, self.layer_thickness)
+
+    @classmethod
+    def required_by(cls, table):
+        return NEEDS.get(table.get("model"), ())
 
     @classmethod
     def from_values(cls, values):
