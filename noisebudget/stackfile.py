@@ -1,189 +1,208 @@
 """Stack files (TOML): parse and validate into a :class:`~noisebudget.stack.Stack`.
 
-Every dimensional value is a string with its unit, read once here with pint; every
-problem is reported as an :class:`~noisebudget.errors.InputError` naming the file, the
-key path (``layer[2].thickness``) and what is wrong. All problems of a file are collected
-before raising, so a user sees them in one pass.
+Every dimensional value is a string with its unit, read once here; every problem is
+reported as an :class:`~noisebudget.errors.InputError` naming the file, the key path
+(``layer[2].thickness``) and what is wrong, all problems of a file (and of the files it
+inserts) in one pass. The keys are declared in :data:`STACK_FILE`, :data:`AIR_STATE`,
+:data:`~noisebudget.layerfile.LAYER_META` and each layer class's ``schema``.
+
+A layer entry is one of
+
+* ``type = "..."`` and that layer type's keys;
+* ``use = "group.name"``: a catalog entry, any of whose keys the entry may override;
+* ``stack = "file.toml"``: every layer of that stack file, inserted in place (the path is
+  relative to the file that names it; the inserted file's air states are ignored with a
+  note, since the layers take the air of the stack they join; include cycles are refused).
 """
 
 from __future__ import annotations
 
-import difflib
-import tomllib
+import hashlib
+import warnings
 from pathlib import Path
 
-from .catalog import META_KEYS, load_catalog
-from .errors import InputError, InputErrors
-from .layers import LAYER_TYPES, LayerValueError
-from .media import Air
+from .catalog import CATALOG_META, load_catalog
+from .errors import InputError, InputNote, show
+from .layerfile import LAYER_META, LayerEntry, build_layer
+from .layers.base import Field
+from .media import Air, standard_atmosphere
+from .schema import INVALID, Reader, join, read_table, read_toml
 from .stack import Stack
-from .units import parse_dimensionless, parse_quantity
 
-__all__ = ["load_stack", "parse_air", "parse_layer", "parse_stack", "read_toml"]
+__all__ = ["AIR_STATE", "INCLUDE_ENTRY", "STACK_FILE", "air_from", "include_stack",
+           "load_stack", "parse_stack", "read_layers", "read_toml"]
 
-_LAYER_META = ("type", "use", "name", *META_KEYS)
-
-
-def read_toml(path) -> dict:
-    """Read a TOML file; a missing or malformed file raises InputError."""
-    path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError(str(path), "", "file not found") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(str(path), "", f"cannot read file ({exc})") from None
-    try:
-        return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(str(path), "", f"malformed TOML: {exc}") from None
+AIR_STATE: dict[str, Field] = {
+    "temperature": Field("temperature", ge=150.0, le=400.0,
+                         doc="air temperature (with altitude: replaces the standard "
+                             "atmosphere's)"),
+    "pressure": Field("pressure", group="pressure", ge=1e3, le=1e6, doc="static pressure"),
+    "altitude": Field("length", group="pressure", positive=False, ge=-1000.0, le=20000.0,
+                      doc="temperature and pressure of the International Standard "
+                          "Atmosphere at this altitude"),
+    "pressure_altitude": Field("length", group="pressure", positive=False, ge=-1000.0,
+                               le=20000.0, doc="pressure of the standard atmosphere at this "
+                                               "altitude (a cabin's pressure altitude); "
+                                               "the temperature stays as given"),
+}
 
 
-def _suggest(word, options) -> str:
-    near = difflib.get_close_matches(word, list(options), n=1, cutoff=0.6)
-    return f"; did you mean {near[0]!r}?" if near else ""
+def air_from(values, default: Air) -> Air:
+    """Air of a table read against :data:`AIR_STATE`; absent keys keep ``default``'s."""
+    if not values:
+        return default
+    t, p = default.temperature, default.pressure
+    if "altitude" in values:
+        std = standard_atmosphere(values["altitude"])
+        t, p = std.temperature, std.pressure
+    elif "pressure_altitude" in values:
+        p = standard_atmosphere(values["pressure_altitude"]).pressure
+    return Air(values.get("temperature", t), values.get("pressure", p))
 
 
-def parse_fields(table: dict, schema: dict, file: str, where: str, errors: list,
-                 skip=()) -> dict:
-    """Check keys against ``schema`` and convert values to SI; problems go to ``errors``."""
-    out = {}
-    for key, value in table.items():
-        if key in skip:
-            continue
-        path = f"{where}.{key}"
-        spec = schema.get(key)
-        if spec is None:
-            errors.append(InputError(file, path, f"unknown key{_suggest(key, schema)} "
-                                                 f"(allowed: {', '.join(schema)})"))
-            continue
-        try:
-            if spec.kind == "choice":
-                if value not in spec.choices:
-                    raise InputError(file, path, f"unknown value {value!r}"
-                                                 f"{_suggest(str(value), spec.choices)} "
-                                                 f"(one of {', '.join(spec.choices)})")
-                out[key] = value
-                continue
-            if spec.kind == "tables":
-                out[key] = value
-                continue
-            if spec.kind == "number":
-                v = parse_dimensionless(value, file, path)
-            else:
-                v = parse_quantity(value, spec.kind, file, path)
-            if spec.positive and (v < 0 or (v == 0 and not spec.allow_zero)):
-                bound = ">= 0" if spec.allow_zero else "> 0"
-                raise InputError(file, path, f"must be {bound}, got {value!r}")
-            out[key] = v
-        except InputError as exc:
-            errors.append(exc)
-    for key, spec in schema.items():
-        if spec.required and key not in table:
-            errors.append(InputError(file, f"{where}.{key}", "missing required key"))
-    return out
+def read_layers(value, spec: Field, path: str, reader: Reader):
+    """A list of layer entries (``[[layer]]``, or ``layer = [...]`` in a study package)
+    to a list of :class:`~noisebudget.layerfile.LayerEntry`, or INVALID after recording
+    every problem on ``reader``."""
+    name = path.rsplit(".", 1)[-1]
+    if not isinstance(value, list) or not all(isinstance(v, dict) for v in value):
+        if isinstance(value, list):
+            bad = next(i for i, v in enumerate(value, 1) if not isinstance(v, dict))
+            reader.problem(join(path, bad), f"expected a layer table, got "
+                                            f"{show(value[bad - 1], typed=True)}")
+        else:
+            reader.problem(path, f"expected an array of layer tables ([[{name}]] or "
+                                 f"{name} = [{{...}}, ...]), got {show(value, typed=True)}")
+        return INVALID
+    if not value:
+        reader.problem(path, "no layers: a stack needs at least one")
+        return INVALID
+    out, ok = [], True
+    for i, entry in enumerate(value, start=1):
+        got = _layer_entry(entry, join(path, i), reader)
+        if got is INVALID:
+            ok = False
+        else:
+            out.extend(got)
+    return out if ok else INVALID
 
 
-def parse_layer(table, file: str, where: str, catalog, errors: list):
-    """One ``[[layer]]`` table (with any ``use`` catalog entry merged) to a layer object.
+INCLUDE_ENTRY: dict[str, Field] = {
+    "stack": Field("path", required=True, doc="a stack file whose layers are inserted here"),
+    **LAYER_META,
+}
 
-    Returns ``(layer, label)`` or ``(None, label)`` when problems were recorded.
-    """
-    if not isinstance(table, dict):
-        errors.append(InputError(file, where, "expected a table"))
-        return None, "?"
-    table = dict(table)
-    label = table.get("name")
+STACK_FILE: dict[str, Field] = {
+    "title": Field("text", doc="what the stack is"),
+    "notes": Field("text", doc="free text"),
+    "source_air": Field("table", schema=AIR_STATE,
+                        doc="air on the source (exterior) side; default 20 degC, 101.325 kPa"),
+    "receiver_air": Field("table", schema=AIR_STATE,
+                          doc="air on the receiving (cabin) side; default the source air"),
+    "cavity_air": Field("table", schema=AIR_STATE,
+                        doc="air in gaps and pores; default the receiving air"),
+    "layer": Field("layers", required=True, read=read_layers,
+                   doc="the layers from the source side to the receiving side"),
+}
+_AIR_KEYS = ("source_air", "receiver_air", "cavity_air")
+
+
+def _record_file(reader: Reader, path: Path) -> None:
+    files = reader.shared.setdefault("files", {})
+    if str(path) not in files:
+        files[str(path)] = hashlib.sha256(path.read_bytes()).hexdigest()
+
+
+def _layer_entry(entry: dict, where: str, reader: Reader):
+    if "stack" in entry:
+        values = read_table(entry, INCLUDE_ENTRY, where, reader)
+        if "stack" not in values:
+            return INVALID
+        got = include_stack(values["stack"], join(where, "stack"), reader)
+        if got is INVALID:
+            return INVALID
+        meta = {k: v for k, v in values.items() if k in LAYER_META}
+        label = meta.pop("name", None)
+        return [LayerEntry(e.layer, f"{label}: {e.label}" if label else e.label,
+                           {**e.meta, **meta}) for e in got]
+    table = dict(entry)
+    label = None
     if "use" in table:
         key = table.pop("use")
+        catalog = reader.shared.get("catalog") or load_catalog()
         try:
-            entry = catalog.get(key, file, f"{where}.use")
+            base = catalog.get(key, reader.file, join(where, "use"))
         except InputError as exc:
-            errors.append(exc)
-            return None, str(key)
-        if "type" in table and table["type"] != entry.get("type"):
-            errors.append(InputError(file, f"{where}.type",
-                                     f"{table['type']!r} contradicts catalog entry {key!r} "
-                                     f"of type {entry.get('type')!r}"))
-            return None, key
-        entry = {k: v for k, v in entry.items() if k not in META_KEYS}
-        entry.update(table)
-        table = entry
-        label = label or key
-    kind = table.get("type")
-    if kind is None:
-        errors.append(InputError(file, f"{where}.type", "missing: give a layer type "
-                                 f"({', '.join(LAYER_TYPES)}) or use = \"catalog.entry\""))
-        return None, label or "?"
-    if kind not in LAYER_TYPES:
-        errors.append(InputError(file, f"{where}.type", f"unknown layer type {kind!r}"
-                                 f"{_suggest(str(kind), LAYER_TYPES)} "
-                                 f"(one of {', '.join(LAYER_TYPES)})"))
-        return None, label or str(kind)
-    cls = LAYER_TYPES[kind]
-    before = len(errors)
-    values = parse_fields(table, cls.schema, file, where, errors, skip=_LAYER_META)
-    for key in cls.required_by(table):
-        if key not in table:
-            errors.append(InputError(file, f"{where}.{key}", f"missing: model "
-                                     f"{table.get('model')!r} needs it"))
-    if hasattr(cls, "parse_tables"):
-        values = cls.parse_tables(values, file, where, errors)
-    if len(errors) > before:
-        return None, label or kind
+            reader.problems.append(exc)
+            return INVALID
+        if "type" not in base:
+            reader.problem(join(where, "use"), f"{key!r} is a {key.split('.')[0]} material, "
+                                               "not a layer")
+            return INVALID
+        if "type" in table and table["type"] != base["type"]:
+            reader.problem(join(where, "type"), f"{show(table['type'])} contradicts catalog "
+                                                f"entry {key!r} of type {base['type']!r}")
+            return INVALID
+        reader.shared.setdefault("catalog_used", {})[key] = catalog.source_file(key)
+        base = {k: v for k, v in base.items() if k not in CATALOG_META}
+        table = {**base, **table}
+        label = key
+    built = build_layer(table, where, reader)
+    if built is INVALID:
+        return INVALID
+    layer, values = built
+    meta = {k: v for k, v in values.items() if k in LAYER_META}
+    return [LayerEntry(layer, meta.get("name") or label or layer.type_name, meta)]
+
+
+def include_stack(rel: str, where: str, reader: Reader, host: str = "stack"):
+    """The layer entries of stack file ``rel`` (relative to the reader's file), for a
+    ``stack = "file.toml"`` key at ``where``; its air states are ignored with an
+    :class:`~noisebudget.errors.InputNote`. Returns INVALID after recording problems
+    (the file's own problems name that file)."""
+    path = (reader.base_dir / rel).resolve()
+    chain = reader.chain
+    if path in chain:
+        loop = " -> ".join(p.name for p in (*chain[chain.index(path):], path))
+        reader.problem(where, f"include cycle: {loop}")
+        return INVALID
     try:
-        return cls.from_values(values), label or kind
-    except LayerValueError as exc:
-        errors.append(InputError(file, f"{where}.{exc.key}", exc.reason))
-        return None, label or kind
+        data = read_toml(path)
+    except InputError as exc:
+        reader.problem(where, f"{rel}: {exc.reason}")
+        return INVALID
+    _record_file(reader, path)
+    sub = reader.for_file(path, path.parent, (*chain, path))
+    before = len(reader.problems)
+    values = read_table(data, STACK_FILE, "", sub, what="a stack file (a table)")
+    ignored = [k for k in _AIR_KEYS if k in data]
+    if ignored:
+        warnings.warn(InputNote(f"{reader.file}: {where}: {rel}: its "
+                                f"{', '.join(ignored)} ignored; the layers take the air of "
+                                f"the {host} they join"), stacklevel=2)
+    if len(reader.problems) > before or values is INVALID:
+        return INVALID
+    return values["layer"]
 
 
-def parse_air(table, file: str, where: str, errors: list, default: Air | None = None):
-    """An ``[source_air]``-style table (temperature, pressure) to :class:`Air`."""
-    from .layers.base import Field
-
-    if table is None:
-        return default or Air()
-    if not isinstance(table, dict):
-        errors.append(InputError(file, where, "expected a table"))
-        return default or Air()
-    schema = {"temperature": Field("temperature"), "pressure": Field("pressure")}
-    v = parse_fields(table, schema, file, where, errors)
-    base = default or Air()
-    return Air(v.get("temperature", base.temperature), v.get("pressure", base.pressure))
+def stack_from(values, entries, default_air: Air | None = None) -> Stack:
+    """A Stack from a stack file's values (read against :data:`STACK_FILE`)."""
+    src = air_from(values.get("source_air"), default_air or Air())
+    rcv = air_from(values.get("receiver_air"), src)
+    cav = air_from(values.get("cavity_air"), rcv)
+    return Stack(tuple(e.layer for e in entries), src, rcv, cav,
+                 tuple(e.label for e in entries))
 
 
 def parse_stack(data: dict, file: str = "", where: str = "", catalog=None) -> Stack:
-    """A stack from parsed TOML ``data``; raises InputErrors listing every problem."""
-    catalog = catalog or load_catalog()
-    errors: list[InputError] = []
-    prefix = f"{where}." if where else ""
-    allowed = ("source_air", "receiver_air", "cavity_air", "layer", "title", "notes")
-    for key in data:
-        if key not in allowed:
-            errors.append(InputError(file, prefix + key,
-                                     f"unknown key{_suggest(key, allowed)} "
-                                     f"(allowed: {', '.join(allowed)})"))
-    src = parse_air(data.get("source_air"), file, prefix + "source_air", errors)
-    rcv = parse_air(data.get("receiver_air"), file, prefix + "receiver_air", errors, src)
-    cav = parse_air(data.get("cavity_air"), file, prefix + "cavity_air", errors, rcv)
-    tables = data.get("layer")
-    if not tables:
-        errors.append(InputError(file, prefix + "layer", "no [[layer]] tables: a stack "
-                                                        "needs at least one layer"))
-        tables = []
-    if not isinstance(tables, list):
-        errors.append(InputError(file, prefix + "layer", "use [[layer]] (an array of "
-                                                        "tables)"))
-        tables = []
-    layers, labels = [], []
-    for i, table in enumerate(tables):
-        layer, label = parse_layer(table, file, f"{prefix}layer[{i + 1}]", catalog, errors)
-        layers.append(layer)
-        labels.append(label)
-    if errors:
-        raise InputErrors(errors)
-    return Stack(tuple(layers), src, rcv, cav, tuple(labels))
+    """A stack from parsed TOML ``data`` of ``file``; raises InputErrors listing every
+    problem. Inserted stack files (``stack = "..."``) are found relative to ``file``."""
+    chain = (Path(file).resolve(),) if file else ()
+    reader = Reader(file, chain=chain)
+    reader.shared["catalog"] = catalog or load_catalog()
+    values = read_table(data, STACK_FILE, where, reader, what="a stack file (a table)")
+    reader.raise_problems()
+    return stack_from(values, values["layer"])
 
 
 def load_stack(path) -> Stack:

@@ -1,7 +1,11 @@
 """Study files (TOML): title block, air, cabin, conditions, zones, packages, targets.
 
-Every problem found is collected, so ``noisebudget check`` lists them all; ``load_study``
-raises :class:`~noisebudget.errors.InputErrors` when there is any.
+The keys are declared section by section below (dicts of
+:class:`~noisebudget.layers.base.Field`, read by :mod:`noisebudget.schema`), so that a
+key is added with one line in its section and appears in the key reference. Every
+problem of the file, and of the stack files it names, is collected; ``load_study``
+raises :class:`~noisebudget.errors.InputErrors` when there is any, and what it accepts
+``run_study`` computes: ``check`` and ``run`` share this one validation.
 """
 
 from __future__ import annotations
@@ -11,26 +15,133 @@ from pathlib import Path
 
 import numpy as np
 
-from .bands import third_octave_bands
-from .budget import Condition, Package, StudyInputs, Zone, compute_budget, sabine_area
 from .catalog import load_catalog
-from .errors import InputError, InputErrors
-from .media import Air, standard_atmosphere
-from .stackfile import _suggest, parse_air, parse_stack, read_toml
-from .units import parse_dimensionless, parse_quantity
+from .layers.base import Field
+from .media import Air
+from .schema import INVALID, Reader, join, read_table, read_toml, suggest
+from .stackfile import AIR_STATE, air_from, include_stack, read_layers
 
-__all__ = ["LoadedStudy", "load_study", "run_study", "TARGET_METRICS"]
+__all__ = ["AIR_SECTION", "CABIN", "CONDITION", "LoadedStudy", "PACKAGE", "PACKAGE_ZONE",
+           "STUDY_FILE", "STUDY_SECTION", "TARGETS", "TARGET_METRICS", "TONE", "ZONE",
+           "load_study", "parse_study", "run_study"]
 
-TARGET_METRICS = ("dba", "sil4", "limit_bands_hz", "limit_db")
-_TOP = ("study", "air", "cabin", "condition", "zone", "package", "targets")
-_STUDY = ("title", "programme", "revision", "author", "date", "baseline", "incidence",
-          "theta_max_deg", "exterior_level", "include_package_absorption", "notes")
+LEVEL = {"positive": False, "ge": -50.0, "le": 200.0}  # a band or tone level, dB
+
+# ------------------------------------------------------------------ [study]
+STUDY_SECTION: dict[str, Field] = {
+    "title": Field("text", doc="title of the study (default: the file name)"),
+    "programme": Field("text", doc="programme or aircraft"),
+    "revision": Field("text", doc="revision of the study"),
+    "author": Field("text", doc="author or team"),
+    "date": Field("date", doc="date of the study"),
+    "baseline": Field("name", doc="the package the others are compared with (default: the "
+                                  "first)"),
+    "incidence": Field("choice", choices=("normal", "field", "diffuse"), default="field",
+                       doc="sound field on the wall"),
+    "theta_max_deg": Field("deg", le=90.0, doc="limit angle of field incidence in degrees "
+                                               "(default 78 for field, 90 for diffuse)"),
+    "exterior_level": Field("choice", choices=("diffuse", "surface"), default="diffuse",
+                            doc="the exterior levels are the incident diffuse-field level, "
+                                "or blocked surface pressure (6 dB above it)"),
+    "include_package_absorption": Field("boolean", default=False,
+                                        doc="add each package's cabin-side absorption to the "
+                                            "cabin's"),
+    "notes": Field("text", doc="free text"),
+}
+
+# ------------------------------------------------------------------ [air]
+AIR_SECTION: dict[str, Field] = {
+    "exterior": Field("table", schema=AIR_STATE,
+                      doc="exterior air (default 20 degC, 101.325 kPa)"),
+    "cabin": Field("table", schema=AIR_STATE, doc="cabin air (default 22 degC, 101.325 kPa)"),
+}
+
+# ------------------------------------------------------------------ [cabin]
+CABIN: dict[str, Field] = {
+    "volume": Field("volume", required=True, doc="cabin volume (Sabine's formula)"),
+    "bands_hz": Field("bands", required=True, doc="bands of the absorption values"),
+    "absorption_area": Field("area", shape="list", length="bands_hz", group="absorption",
+                             required=True, doc="absorption area per band"),
+    "reverberation_time": Field("time", shape="list", length="bands_hz", group="absorption",
+                                required=True, doc="reverberation time T60 per band "
+                                                   "(A = 0.161 V / T60)"),
+    "mean_absorption": Field("number", le=1.0, group="absorption", required=True,
+                             needs=("surface_area",),
+                             doc="mean absorption coefficient of all surfaces (A = alpha S)"),
+    "surface_area": Field("area", needs=("mean_absorption",),
+                          doc="total surface area, with mean_absorption"),
+}
+
+# ------------------------------------------------------------------ [[condition]]
+TONE: dict[str, Field] = {
+    "name": Field("name", doc="label of the tone (e.g. BPF)"),
+    "frequency": Field("frequency", required=True, doc="tone frequency (inside the bands)"),
+    "level_db": Field("db", required=True, **LEVEL, doc="tone level"),
+}
+CONDITION: dict[str, Field] = {
+    "name": Field("name", required=True, doc="name of the flight condition"),
+    "bands_hz": Field("bands", required=True, doc="bands of the exterior levels"),
+    "levels_db": Field("db", shape="list", length="bands_hz", required=True, **LEVEL,
+                       doc="exterior band levels"),
+    "tone": Field("tables", schema=TONE, doc="discrete tones, one [[condition.tone]] each"),
+    "notes": Field("text", doc="free text"),
+}
+
+# ------------------------------------------------------------------ [[zone]]
+ZONE: dict[str, Field] = {
+    "name": Field("name", required=True, doc="name of the zone (packages refer to it)"),
+    "area": Field("area", required=True, doc="wall area of the zone"),
+    "notes": Field("text", doc="free text"),
+}
+
+# ------------------------------------------------------------------ [[package]]
+PACKAGE_ZONE: dict[str, Field] = {
+    "layer": Field("layers", group="stack", required=True, read=read_layers,
+                   doc="the zone's layers, exterior first (stack-file layer entries)"),
+    "stack": Field("path", group="stack", required=True,
+                   doc="a stack file holding the zone's layers (its air states are "
+                       "ignored: the study's air governs)"),
+    "notes": Field("text", doc="free text"),
+}
+PACKAGE: dict[str, Field] = {
+    "name": Field("name", required=True, doc="name of the package"),
+    "based_on": Field("name", doc="an earlier package whose zones this one copies"),
+    "installation_mass": Field("surface_density", allow_zero=True, default=0.0,
+                               doc="fasteners, brackets and seals per unit area"),
+    "notes": Field("text", doc="free text"),
+    "zone": Field("named", schema=PACKAGE_ZONE,
+                  doc="[package.zone.NAME]: the stack of zone NAME"),
+}
+
+# ------------------------------------------------------------------ [targets]
+TARGETS: dict[str, Field] = {
+    "dba": Field("db", **LEVEL, doc="interior A-weighted level target"),
+    "sil4": Field("db", **LEVEL, doc="speech interference level target (SIL4)"),
+    "limit_bands_hz": Field("bands", needs=("limit_db",), doc="bands of a limit curve"),
+    "limit_db": Field("db", shape="list", length="limit_bands_hz", needs=("limit_bands_hz",),
+                      **LEVEL, doc="interior band level limit"),
+}
+TARGET_METRICS = tuple(TARGETS)
+
+# ------------------------------------------------------------------ the file
+STUDY_FILE: dict[str, Field] = {
+    "study": Field("table", schema=STUDY_SECTION, doc="title block and options"),
+    "air": Field("table", schema=AIR_SECTION, doc="exterior and cabin air"),
+    "cabin": Field("table", schema=CABIN, required=True, doc="cabin volume and absorption"),
+    "condition": Field("tables", schema=CONDITION, required=True, unique="name",
+                       doc="flight conditions: exterior levels and tones"),
+    "zone": Field("tables", schema=ZONE, required=True, unique="name",
+                  doc="parts of the cabin wall"),
+    "package": Field("tables", schema=PACKAGE, required=True, unique="name",
+                     doc="treatment packages: a stack per zone"),
+    "targets": Field("table", schema=TARGETS, doc="targets for every condition"),
+}
 
 
 class LoadedStudy:
     """A validated study: the budget inputs plus the files it read (for hashes)."""
 
-    def __init__(self, inputs: StudyInputs, files: dict):
+    def __init__(self, inputs, files: dict):
         self.inputs = inputs
         self.files = files          # path -> sha256 of every input file
 
@@ -39,353 +150,217 @@ def _sha256(path: Path) -> str:
     return hashlib.sha256(path.read_bytes()).hexdigest()
 
 
-def _unknown(table, allowed, file, where, errors):
-    for k in table:
-        if k not in allowed:
-            errors.append(InputError(file, f"{where}{k}", f"unknown key{_suggest(k, allowed)} "
-                                                          f"(allowed: {', '.join(allowed)})"))
+def _valid(entries):
+    """``(1-based index, Values)`` of the entries of an array of tables that were tables."""
+    if not isinstance(entries, list):
+        return []
+    return [(i, v) for i, v in enumerate(entries, start=1) if v is not INVALID]
 
 
-def _air(table, file, where, errors, default):
-    if table is None:
-        return default
-    if not isinstance(table, dict):
-        errors.append(InputError(file, where, "expected a table"))
-        return default
-    alt_keys = [k for k in ("altitude", "pressure_altitude") if k in table]
-    rest = {k: v for k, v in table.items() if k not in alt_keys}
-    if alt_keys:
-        try:
-            h = parse_quantity(table[alt_keys[0]], "length", file, f"{where}.{alt_keys[0]}")
-            std = standard_atmosphere(h)
-        except InputError as exc:
-            errors.append(exc)
-            return default
-        except ValueError as exc:
-            errors.append(InputError(file, f"{where}.{alt_keys[0]}", str(exc)))
-            return default
-        if alt_keys[0] == "pressure_altitude":  # cabin: pressure of altitude, own temperature
-            std = Air(default.temperature, std.pressure)
-        return parse_air(rest, file, where, errors, std)
-    return parse_air(rest, file, where, errors, default)
-
-
-def _bands(values, file, where, errors):
-    try:
-        arr = np.array([float(v) for v in values])
-    except (TypeError, ValueError):
-        errors.append(InputError(file, where, "expected a list of nominal frequencies in Hz"))
-        return None
-    if arr.size == 0:
-        errors.append(InputError(file, where, "empty band list"))
-        return None
-    ref = third_octave_bands(arr[0], arr[-1])
-    if ref.nominal.size != arr.size or not np.allclose(ref.nominal, arr):
-        errors.append(InputError(file, where, "bands must be consecutive ISO 266 one-third-"
-                                              f"octave nominal frequencies from {arr[0]:g} Hz"))
-        return None
-    return ref
-
-
-def _numbers(values, n, file, where, errors):
-    if values is None:
-        errors.append(InputError(file, where, "missing required key"))
-        return None
-    if not isinstance(values, list) or not all(isinstance(v, (int, float))
-                                               and not isinstance(v, bool) for v in values):
-        errors.append(InputError(file, where, "levels must be a list of numbers (dB)"))
-        return None
-    if len(values) != n:
-        errors.append(InputError(file, where, f"{len(values)} values for {n} bands: the "
-                                              "bands do not match"))
-        return None
-    return np.array(values, dtype=float)
-
-
-def _cabin(table, file, errors):
-    where = "cabin"
-    if not isinstance(table, dict):
-        errors.append(InputError(file, where, "missing [cabin] table (volume and absorption)"))
+def _cabin(v):
+    if not v or "bands_hz" not in v or "volume" not in v:
         return None, None
-    allowed = ("volume", "bands_hz", "absorption_area", "reverberation_time",
-               "mean_absorption", "surface_area")
-    _unknown(table, allowed, file, f"{where}.", errors)
-    bands = _bands(table.get("bands_hz", []), file, f"{where}.bands_hz", errors)
-    try:
-        volume = parse_quantity(table.get("volume"), "volume", file, f"{where}.volume")
-        if volume <= 0:
-            raise InputError(file, f"{where}.volume", "must be > 0")
-    except InputError as exc:
-        errors.append(exc)
-        return None, bands
-    given = [k for k in ("absorption_area", "reverberation_time", "mean_absorption")
-             if k in table]
-    if len(given) != 1:
-        errors.append(InputError(file, where, "give exactly one of absorption_area, "
-                                              "reverberation_time, mean_absorption"))
-        return None, bands
-    if bands is None:
-        return None, bands
-    kind = given[0]
-    if kind == "mean_absorption":
-        try:
-            alpha = parse_dimensionless(table[kind], file, f"{where}.{kind}")
-            s = parse_quantity(table.get("surface_area"), "area", file,
-                               f"{where}.surface_area")
-        except InputError as exc:
-            errors.append(exc)
-            return None, bands
-        if not 0 < alpha <= 1 or s <= 0:
-            errors.append(InputError(file, f"{where}.{kind}", "need 0 < alpha <= 1 and "
-                                                             "surface_area > 0"))
-            return None, bands
-        return np.full(len(bands), alpha * s), bands
-    values = table[kind]
-    unit_kind = "area" if kind == "absorption_area" else "time"
-    if not isinstance(values, list) or len(values) != len(bands):
-        errors.append(InputError(file, f"{where}.{kind}", f"need one value per band "
-                                                         f"({len(bands)}): the bands do not "
-                                                         "match"))
-        return None, bands
+    bands = v["bands_hz"]
+    if "absorption_area" in v:
+        return np.array(v["absorption_area"]), bands
+    if "reverberation_time" in v:
+        from .budget import sabine_area
+
+        return sabine_area(v["volume"], np.array(v["reverberation_time"])), bands
+    if "mean_absorption" in v and "surface_area" in v:
+        return np.full(len(bands), v["mean_absorption"] * v["surface_area"]), bands
+    return None, bands
+
+
+def _conditions(entries, reader):
+    from .budget import Condition
+
     out = []
-    for i, v in enumerate(values):
-        try:
-            x = parse_quantity(v, unit_kind, file, f"{where}.{kind}[{i + 1}]")
-            if x <= 0:
-                raise InputError(file, f"{where}.{kind}[{i + 1}]", "must be > 0")
-            out.append(x)
-        except InputError as exc:
-            errors.append(exc)
-    if len(out) != len(bands):
-        return None, bands
-    arr = np.array(out)
-    return (arr if kind == "absorption_area" else sabine_area(volume, arr)), bands
-
-
-def _each_table(tables, name, file, errors):
-    """``(index, key path, table)`` of every ``[[name]]`` entry that is a table; problems
-    (none given, an entry that is not a table) go to ``errors``."""
-    if not isinstance(tables, list) or not tables:
-        errors.append(InputError(file, name, f"need at least one [[{name}]]"))
-        return
-    for i, t in enumerate(tables):
-        where = f"{name}[{i + 1}]"
-        if not isinstance(t, dict):
-            errors.append(InputError(file, where, "expected a table"))
+    for i, v in _valid(entries):
+        where = f"condition[{i}]"
+        if "bands_hz" not in v:
             continue
-        yield i, where, t
-
-
-def _conditions(tables, file, errors):
-    out = []
-    for i, where, t in _each_table(tables, "condition", file, errors):
-        _unknown(t, ("name", "bands_hz", "levels_db", "tone", "notes"), file, f"{where}.",
-                 errors)
-        bands = _bands(t.get("bands_hz", []), file, f"{where}.bands_hz", errors)
-        if bands is None:
-            continue
-        levels = _numbers(t.get("levels_db"), len(bands), file, f"{where}.levels_db", errors)
-        tones_f, tones_l = [], []
-        for j, tone in enumerate(t.get("tone", [])):
-            tw = f"{where}.tone[{j + 1}]"
-            if not isinstance(tone, dict):
-                errors.append(InputError(file, tw, "expected a table"))
+        bands = v["bands_hz"]
+        tones_f, tones_l, ok = [], [], True
+        for j, t in _valid(v.get("tone", [])):
+            if "frequency" not in t or "level_db" not in t:
+                ok = False
                 continue
-            _unknown(tone, ("frequency", "level_db", "name"), file, f"{tw}.", errors)
-            try:
-                f = parse_quantity(tone.get("frequency"), "frequency", file, f"{tw}.frequency")
-                lv = tone.get("level_db")
-                if isinstance(lv, bool) or not isinstance(lv, (int, float)):
-                    raise InputError(file, f"{tw}.level_db", f"not a number: {lv!r}")
-                if bands.containing([f])[0] < 0:
-                    raise InputError(file, f"{tw}.frequency", f"{f:g} Hz lies outside the "
-                                                              "condition's bands")
-                tones_f.append(f)
-                tones_l.append(float(lv))
-            except InputError as exc:
-                errors.append(exc)
-        if levels is not None:
-            out.append(Condition(str(t.get("name", f"condition {i + 1}")), bands, levels,
+            if bands.containing([t["frequency"]])[0] < 0:
+                reader.problem(f"{where}.tone[{j}].frequency",
+                               f"{t['frequency']:g} Hz lies outside the condition's bands "
+                               f"({bands.lower[0]:.4g} .. {bands.upper[-1]:.4g} Hz)")
+                ok = False
+                continue
+            tones_f.append(t["frequency"])
+            tones_l.append(t["level_db"])
+        if ok and "levels_db" in v and "name" in v and not v.bad:
+            out.append(Condition(v["name"], bands, np.array(v["levels_db"]),
                                  np.array(tones_f), np.array(tones_l)))
     return out
 
 
-def _zones(tables, file, errors, names):
-    """Valid zones; ``names`` receives every zone name, so that a zone with a bad area
-    does not also make each package's stack for it look unknown."""
-    out = []
-    for i, where, t in _each_table(tables, "zone", file, errors):
-        _unknown(t, ("name", "area", "notes"), file, f"{where}.", errors)
-        names.append(str(t.get("name", f"zone {i + 1}")))
-        try:
-            area = parse_quantity(t.get("area"), "area", file, f"{where}.area")
-            if area <= 0:
-                raise InputError(file, f"{where}.area", f"must be > 0, got {t.get('area')!r}")
-            out.append(Zone(str(t.get("name", f"zone {i + 1}")), area))
-        except InputError as exc:
-            errors.append(exc)
-    return out
+def _zones(entries):
+    from .budget import Zone
+
+    return [Zone(v["name"], v["area"]) for _, v in _valid(entries)
+            if "name" in v and "area" in v]
 
 
-def _packages(tables, zones, airs, file, base_dir, errors, files, catalog, zone_names):
+def _raw_names(data, section):
+    """Every string name given in an array of tables, valid or not: references to them
+    are then not reported a second time."""
+    tables = data.get(section)
+    if not isinstance(tables, list):
+        return []
+    return [t["name"] for t in tables if isinstance(t, dict) and isinstance(t.get("name"), str)]
+
+
+def _packages(entries, zone_names, zones, airs, reader, package_names):
+    from .budget import Package
+    from .stack import Stack
+
     out = []
-    by_name, failed_of = {}, {}
-    for i, where, t in _each_table(tables, "package", file, errors):
-        _unknown(t, ("name", "based_on", "installation_mass", "notes", "zone"), file,
-                 f"{where}.", errors)
-        name = str(t.get("name", f"package {i + 1}"))
-        stacks = {}
-        failed = set()  # zones whose stack had errors (already reported)
-        if "based_on" in t:
-            if t["based_on"] not in by_name:
-                errors.append(InputError(file, f"{where}.based_on", f"no earlier package "
-                                                                    f"{t['based_on']!r}"))
+    done: dict[str, tuple] = {}   # name -> (stacks, zones whose stack failed)
+    for i, v in _valid(entries):
+        where = f"package[{i}]"
+        stacks: dict = {}
+        failed: set = set()
+        if "based_on" in v:
+            base = v["based_on"]
+            if base in done:
+                stacks.update(done[base][0])
+                failed |= done[base][1]
             else:
-                stacks.update(by_name[t["based_on"]].stacks)
-                failed |= failed_of[t["based_on"]]
-        zt = t.get("zone", {})
-        if not isinstance(zt, dict):
-            errors.append(InputError(file, f"{where}.zone", "expected [package.zone.NAME] "
-                                                            "tables"))
-            zt = {}
-        names = zone_names
-        for zname, spec in zt.items():
-            zw = f"{where}.zone.{zname}"
-            if zname not in names:
-                errors.append(InputError(file, zw, f"no such zone{_suggest(zname, names)} "
-                                                   f"(zones: {', '.join(names)})"))
+                later = base in package_names
+                reader.problem(join(where, "based_on"),
+                               f"package {base!r} comes later: based_on needs an earlier one"
+                               if later else f"no earlier package {base!r}"
+                               f"{suggest(base, list(done))}")
+                failed |= set(zone_names)
+        elif v.given("based_on"):
+            failed |= set(zone_names)
+        if v.given("zone") and "zone" not in v:
+            failed |= set(zone_names)
+        for zname, zv in v.get("zone", {}).items():
+            zw = join(join(where, "zone"), zname)
+            if zname not in zone_names:
+                reader.problem(zw, f"no such zone{suggest(zname, zone_names)} "
+                                   f"(zones: {', '.join(zone_names)})")
                 continue
-            if not isinstance(spec, dict):
-                errors.append(InputError(file, zw, "expected a table"))
-                continue
-            data = spec
-            sfile = file
-            if "stack" in spec:
-                path = (base_dir / spec["stack"]).resolve()
-                try:
-                    data = read_toml(path)
-                    files[str(path)] = _sha256(path)
-                    sfile = str(path)
-                except InputError as exc:
-                    errors.append(InputError(file, f"{zw}.stack", f"{spec['stack']}: "
-                                                                  f"{exc.reason}"))
-                    failed.add(zname)
-                    continue
-            data = dict(data)
-            for k, air in zip(("source_air", "receiver_air"), airs, strict=True):
-                data[k] = {"temperature": f"{air.temperature} K",  # the study's air governs
-                           "pressure": f"{air.pressure} Pa"}
-            try:
-                stacks[zname] = parse_stack(data, sfile, "" if sfile != file else zw, catalog)
-            except InputErrors as exc:
-                errors.extend(exc.errors)
+            stacks.pop(zname, None)
+            entries_z = INVALID
+            if zv is not INVALID and "layer" in zv:
+                entries_z = zv["layer"]
+            elif zv is not INVALID and "stack" in zv:
+                entries_z = include_stack(zv["stack"], join(zw, "stack"), reader,
+                                          host="study's zone")
+            if entries_z is INVALID:
                 failed.add(zname)
-        for z in zones:
-            if z.name not in stacks and z.name not in failed:
-                errors.append(InputError(file, f"{where}.zone.{z.name}",
-                                         "missing: every package needs a stack for every zone"))
-        inst = 0.0
-        if "installation_mass" in t:
-            try:
-                inst = parse_quantity(t["installation_mass"], "surface_density", file,
-                                      f"{where}.installation_mass")
-            except InputError as exc:
-                errors.append(exc)
-        pkg = Package(name, stacks, inst, str(t.get("notes", "")))
-        if name in by_name:
-            errors.append(InputError(file, f"{where}.name", f"duplicate package {name!r}"))
-        by_name[name] = pkg
-        failed_of[name] = failed - set(stacks)
-        out.append(pkg)
+                continue
+            failed.discard(zname)
+            stacks[zname] = Stack(tuple(e.layer for e in entries_z), airs[0], airs[1],
+                                  airs[1], tuple(e.label for e in entries_z))
+        for z in zone_names:
+            if z not in stacks and z not in failed:
+                reader.problem(join(join(where, "zone"), z),
+                               "missing: every package needs a stack for every zone")
+        if "name" in v:
+            done[v["name"]] = (stacks, failed)
+            if "installation_mass" in v and set(stacks) >= {z.name for z in zones}:
+                out.append(Package(v["name"], stacks, v["installation_mass"],
+                                   v.get("notes", "")))
     return out
 
 
-def _targets(table, file, errors):
-    if table is None:
-        return {}
-    _unknown(table, TARGET_METRICS, file, "targets.", errors)
-    out = {}
-    for k in ("dba", "sil4"):
-        if k in table:
-            v = table[k]
-            if isinstance(v, bool) or not isinstance(v, (int, float)):
-                errors.append(InputError(file, f"targets.{k}", f"not a number: {v!r}"))
-            else:
-                out[k] = float(v)
-    if ("limit_bands_hz" in table) != ("limit_db" in table):
-        errors.append(InputError(file, "targets", "give limit_bands_hz and limit_db together"))
-    elif "limit_bands_hz" in table:
-        b = _bands(table["limit_bands_hz"], file, "targets.limit_bands_hz", errors)
-        if b is not None:
-            lim = _numbers(table["limit_db"], len(b), file, "targets.limit_db", errors)
-            if lim is not None:
-                out["limit"] = (list(b.nominal), list(lim))
+def _targets(v):
+    out = {k: v[k] for k in ("dba", "sil4") if k in v}
+    if "limit_bands_hz" in v and "limit_db" in v:
+        out["limit"] = (list(v["limit_bands_hz"].nominal), list(v["limit_db"]))
     return out
+
+
+def parse_study(data: dict, file: str = "", base_dir=None) -> LoadedStudy:
+    """Validate parsed TOML ``data`` of a study file into budget inputs.
+
+    Parameters
+    ----------
+    data : dict
+        The file as parsed by tomllib.
+    file : str
+        The file's path, for messages; stack files it names are found relative to
+        ``base_dir`` (default: the file's folder).
+
+    Returns
+    -------
+    LoadedStudy
+
+    Raises
+    ------
+    InputErrors
+        Listing every problem of the file and of the stack files it names.
+    """
+    from .budget import StudyInputs
+
+    chain = (Path(file).resolve(),) if file else ()
+    reader = Reader(file, base_dir, chain=chain)
+    files = reader.shared.setdefault("files", {})
+    if file and Path(file).is_file():
+        files[str(Path(file).resolve())] = _sha256(Path(file))
+    catalog = reader.shared["catalog"] = load_catalog()
+    v = read_table(data, STUDY_FILE, "", reader, what="a study file (a table)")
+    if v is INVALID:
+        reader.raise_problems()
+    st = v.get("study") or read_table({}, STUDY_SECTION, "study", reader)  # the defaults
+    air = v.get("air", {})
+    ext = air_from(air.get("exterior"), Air())
+    cab = air_from(air.get("cabin"), Air(295.15, 101325.0))
+    cabin_a, cabin_bands = _cabin(v.get("cabin"))
+    conditions = _conditions(v.get("condition"), reader)
+    zones = _zones(v.get("zone"))
+    zone_names = list(dict.fromkeys(_raw_names(data, "zone")))
+    package_names = _raw_names(data, "package")
+    packages = _packages(v.get("package"), zone_names, zones, (ext, cab), reader,
+                         package_names)
+    names = [p.name for p in packages]
+    baseline = st.get("baseline", names[0] if names else "")
+    if "baseline" in st and baseline not in package_names:
+        reader.problem("study.baseline", f"no package {baseline!r}"
+                                         f"{suggest(baseline, package_names)}")
+    if cabin_bands is not None:
+        for i, c in enumerate(v.get("condition") or [], start=1):
+            if c is not INVALID and "bands_hz" in c and not set(
+                    c["bands_hz"].nominal) <= set(cabin_bands.nominal):
+                reader.problem(f"condition[{i}].bands_hz", "bands do not match: the cabin "
+                                                           "absorption must cover every band "
+                                                           "of every condition")
+    reader.raise_problems()
+    used = sorted(reader.shared.get("catalog_used", {}))
+    for key in used:
+        files.setdefault(str(catalog.source_file(key)), _sha256(catalog.source_file(key)))
+    meta = {k: str(st.get(k, "")) for k in ("title", "programme", "revision", "author",
+                                             "date", "notes")}
+    meta["catalog_entries"] = used
+    meta["air"] = {"exterior": ext, "cabin": cab}
+    title = meta["title"] or (Path(file).stem if file else "study")
+    inputs = StudyInputs(title, tuple(conditions), tuple(zones), tuple(packages), baseline,
+                         cabin_a, cabin_bands, st["exterior_level"], st["incidence"],
+                         st.get("theta_max_deg"), st["include_package_absorption"],
+                         _targets(v.get("targets", {})), meta)
+    return LoadedStudy(inputs, dict(files))
 
 
 def load_study(path) -> LoadedStudy:
     """Parse and validate a study file; raises InputErrors listing every problem."""
     path = Path(path)
-    file = str(path)
-    data = read_toml(path)
-    files = {str(path.resolve()): _sha256(path)}
-    errors: list[InputError] = []
-    _unknown(data, _TOP, file, "", errors)
-    st = data.get("study", {})
-    _unknown(st, _STUDY, file, "study.", errors)
-    air = data.get("air", {})
-    _unknown(air, ("exterior", "cabin"), file, "air.", errors)
-    ext = _air(air.get("exterior"), file, "air.exterior", errors, Air())
-    cab = _air(air.get("cabin"), file, "air.cabin", errors, Air(295.15, 101325.0))
-    cabin_a, cabin_bands = _cabin(data.get("cabin"), file, errors)
-    conditions = _conditions(data.get("condition"), file, errors)
-    zone_names: list[str] = []
-    zones = _zones(data.get("zone"), file, errors, zone_names)
-    catalog = load_catalog()
-    packages = _packages(data.get("package"), zones, (ext, cab), file, path.parent,
-                         errors, files, catalog, zone_names)
-    targets = _targets(data.get("targets"), file, errors)
-    incidence = st.get("incidence", "field")
-    if incidence not in ("normal", "field", "diffuse"):
-        errors.append(InputError(file, "study.incidence", f"unknown incidence {incidence!r} "
-                                                          "(normal, field, diffuse)"))
-    convention = st.get("exterior_level", "diffuse")
-    if convention not in ("diffuse", "surface"):
-        errors.append(InputError(file, "study.exterior_level", "must be 'diffuse' (incident "
-                                 "diffuse-field level) or 'surface' (blocked surface pressure)"))
-    names = [p.name for p in packages]
-    baseline = st.get("baseline", names[0] if names else "")
-    if names and baseline not in names:
-        errors.append(InputError(file, "study.baseline", f"no package {baseline!r}"
-                                                         f"{_suggest(str(baseline), names)}"))
-    if cabin_bands is not None:
-        for i, c in enumerate(conditions):
-            if not set(c.bands.nominal) <= set(cabin_bands.nominal):
-                errors.append(InputError(file, f"condition[{i + 1}].bands_hz",
-                                         "bands do not match: the cabin absorption must cover "
-                                         "every band of every condition"))
-    used = sorted({key for p in packages for s in p.stacks.values() for key in s.labels
-                   if key in catalog})
-    for key in used:
-        cpath = catalog.source_file(key)
-        files[str(cpath)] = _sha256(cpath)
-    if errors:
-        raise InputErrors(errors)
-    theta = st.get("theta_max_deg")
-    meta = {k: str(st.get(k, "")) for k in ("title", "programme", "revision", "author",
-                                             "date", "notes")}
-    meta["catalog_entries"] = used
-    meta["air"] = {"exterior": ext, "cabin": cab}
-    inputs = StudyInputs(meta["title"] or path.stem, tuple(conditions), tuple(zones),
-                         tuple(packages), baseline, cabin_a, cabin_bands, convention,
-                         incidence, float(theta) if theta is not None else None,
-                         bool(st.get("include_package_absorption", False)), targets, meta)
-    return LoadedStudy(inputs, files)
+    return parse_study(read_toml(path), str(path))
 
 
 def run_study(path):
     """Load, validate and compute a study file; returns a
     :class:`~noisebudget.budget.StudyResult` (DataFrames with units in column names)."""
+    from .budget import compute_budget
+
     loaded = load_study(path)
     result = compute_budget(loaded.inputs)
     result.files = loaded.files

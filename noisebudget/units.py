@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import functools
 import math
+import re
 
 from .errors import InputError
 
@@ -42,13 +43,54 @@ def registry():
     return ureg
 
 
+# a quantity is a plain decimal number and a unit made of words with small integer powers:
+# no arithmetic, so that no text can make the unit parser compute for ever
+_NUMBER = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
+_WORD = r"(?:[^\W\d]|°)(?:\w|°)*(?:\s*(?:\^|\*\*)\s*[+-]?\d{1,2})?"
+_QUANTITY = re.compile(rf"\s*({_NUMBER})\s*((?:{_WORD})(?:\s*[*/]?\s*{_WORD})*)?\s*")
+
+
+def _article(label: str) -> str:
+    return "an" if label[0] in "aeiou" else "a"
+
+
+@functools.lru_cache(maxsize=4096)
+def _to_si(text: str, kind: str) -> float | str:
+    """SI value of quantity text, or the reason it cannot be read (cached: files repeat
+    the same values)."""
+    si, example = QUANTITIES[kind]
+    label = kind.replace("_", " ")
+    a = _article(label)
+    m = _QUANTITY.fullmatch(text)
+    if m is None:
+        return (f"cannot read {text!r} as a quantity: expected a number and its unit, "
+                f"e.g. {example}")
+    number, unit = m.groups()
+    if not unit:
+        return f"{text!r} has no unit: {a} {label} needs one, e.g. {example}"
+    import pint
+
+    ureg = registry()
+    try:
+        q = ureg.Quantity(float(number), ureg.parse_units(unit))
+    except Exception as exc:  # pint raises several types for unknown or odd units
+        return f"cannot read {text!r} as a quantity ({str(exc).strip()})"
+    try:
+        out = float(q.to(si).magnitude)
+    except pint.DimensionalityError:
+        return f"{text!r} is not {a} {label} (expected units of {si}, e.g. {example})"
+    if not math.isfinite(out):
+        return f"{text!r} is not a finite number"
+    return out
+
+
 def parse_quantity(value, kind: str, file: str = "", key: str = "") -> float:
     """Parse ``"25 mm"``-style text into an SI float of the given kind.
 
     Parameters
     ----------
     value : str
-        Number and unit, e.g. ``"0.6 lb/ft^3"``.
+        A plain decimal number and its unit, e.g. ``"0.6 lb/ft^3"`` (no arithmetic).
     kind : str
         One of :data:`QUANTITIES`.
     file, key : str
@@ -57,42 +99,33 @@ def parse_quantity(value, kind: str, file: str = "", key: str = "") -> float:
     Raises
     ------
     InputError
-        For a bare number, text pint cannot read, or a unit of the wrong dimension.
+        For a bare number, text that is not a number and a unit, an unknown unit, a unit
+        of the wrong dimension or a value that is not finite.
     """
+    from .errors import show
+
     si, example = QUANTITIES[kind]
     label = kind.replace("_", " ")
-    article = "an" if label[0] in "aeiou" else "a"
-    if isinstance(value, bool) or not isinstance(value, (str, int, float)):
-        raise InputError(file, key, f"expected {article} {label} with its unit such as {example}, "
-                                    f"got {type(value).__name__} {value!r}")
-    if isinstance(value, (int, float)):
-        raise InputError(file, key, f"bare number {value!r}: {article} {label} needs a unit, "
+    a = _article(label)
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        raise InputError(file, key, f"bare number {show(value)}: {a} {label} needs a unit, "
                                     f"e.g. {example}")
-    import pint
-
-    ureg = registry()
-    try:
-        q = ureg.Quantity(value.strip())
-    except Exception as exc:  # pint raises several types for unreadable text
-        raise InputError(file, key, f"cannot read {value!r} as a quantity ({exc})") from None
-    if not isinstance(q, ureg.Quantity) or q.dimensionless and si != "":
-        raise InputError(file, key, f"{value!r} has no unit: {article} {label} needs one, "
-                                    f"e.g. {example}")
-    try:
-        out = float(q.to(si).magnitude)
-    except pint.DimensionalityError:
-        raise InputError(file, key, f"{value!r} is not {article} {label} (expected units of {si}, "
-                                    f"e.g. {example})") from None
-    if not math.isfinite(out):
-        raise InputError(file, key, f"{value!r} is not a finite number")
+    if not isinstance(value, str):
+        raise InputError(file, key, f"expected {a} {label} with its unit such as {example}, "
+                                    f"got {show(value, typed=True)}")
+    out = _to_si(value, kind)
+    if isinstance(out, str):
+        raise InputError(file, key, out)
     return out
 
 
 def parse_dimensionless(value, file: str = "", key: str = "") -> float:
-    """Read a plain number (loss factor, porosity, tortuosity, share)."""
+    """Read a plain finite number (loss factor, porosity, tortuosity, share)."""
+    from .errors import show
+
     if isinstance(value, bool) or not isinstance(value, (int, float)):
-        raise InputError(file, key, f"expected a plain number, got {value!r}")
+        raise InputError(file, key, f"expected a plain number, got {show(value, typed=True)}")
     out = float(value)
     if not math.isfinite(out):
-        raise InputError(file, key, f"{value!r} is not a finite number")
+        raise InputError(file, key, f"{show(value)} is not a finite number")
     return out

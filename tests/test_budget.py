@@ -159,7 +159,7 @@ def test_bad_study_lists_every_problem(tmp_path, capsys):
     joined = "\n".join(err)
     assert "zone[2].area: must be > 0" in joined
     assert "targets.loudness: unknown key" in joined
-    assert "condition[1].levels_db: levels must be a list of numbers" in joined
+    assert "condition[1].levels_db[1]: expected a plain number in dB, got string" in joined
     assert all(line.startswith(f"{path}: ") for line in err)
     out = tmp_path / "out"
     assert main(["run", str(path), "-o", str(out)]) == 2

@@ -16,12 +16,14 @@ A layer supplies the least it can:
 
 from __future__ import annotations
 
-from dataclasses import dataclass, fields
-from typing import ClassVar
+from collections.abc import Callable, Mapping
+from dataclasses import KW_ONLY, dataclass, field, fields
+from typing import Any, ClassVar
 
 import numpy as np
 
-__all__ = ["Field", "FluidElement", "Layer", "LayerValueError", "SheetElement"]
+__all__ = ["Field", "FluidElement", "Layer", "LayerValueError", "LayerValueErrors",
+           "SheetElement"]
 
 
 class LayerValueError(ValueError):
@@ -32,14 +34,73 @@ class LayerValueError(ValueError):
         self.reason = reason
         super().__init__(f"{key}: {reason}")
 
+    def __reduce__(self):
+        return (type(self), (self.key, self.reason))
+
+
+class LayerValueErrors(LayerValueError):
+    """Several bad parameters of one layer (e.g. of two tile cells), in order."""
+
+    def __init__(self, errors: list[LayerValueError]):
+        self.errors = list(errors)
+        super().__init__(self.errors[0].key, self.errors[0].reason)
+
+    def __reduce__(self):
+        return (type(self), (self.errors,))
+
 
 @dataclass(frozen=True)
 class Field:
-    """One key of a layer's file schema.
+    """One key of a file schema: what the key holds, as data (no parsing here).
 
-    ``kind`` is a quantity kind of :mod:`noisebudget.units`, ``"number"`` for a plain
-    dimensionless number, ``"choice"`` (one of ``choices``) or ``"cells"`` (tile cells).
-    ``positive`` rejects zero and negative values.
+    The file boundary (:mod:`noisebudget.schema`) reads a table against a dict of
+    fields, converts every value to SI, and reports every problem; the reference of file
+    keys (``docs/file-keys.md``) is generated from the same dicts.
+
+    Parameters
+    ----------
+    kind : str
+        A quantity kind of :data:`noisebudget.units.QUANTITIES` (a string with its unit,
+        converted to an SI float), or one of ``"number"`` (a plain dimensionless number),
+        ``"db"``, ``"deg"`` (plain numbers in dB or degrees), ``"integer"``,
+        ``"boolean"``, ``"choice"`` (one of ``choices``), ``"name"`` (a label: no control
+        characters), ``"text"``, ``"date"``, ``"path"`` (a file, relative to the file
+        that names it), ``"bands"`` (nominal band frequencies in Hz), ``"table"`` (keys of
+        ``schema``), ``"tables"`` (an array of such tables), ``"named"`` (tables keyed by
+        a name of the user's, each with the keys of ``schema``), or a kind read by ``read``.
+    required : bool
+        The key must be given (for a ``group``: one key of the group must be given).
+    positive, allow_zero : bool
+        Numbers must be > 0 (>= 0 with ``allow_zero``); set ``positive=False`` for
+        signed values.
+    choices : tuple of str
+        The allowed values of a ``"choice"``.
+    gt, ge, lt, le : float, optional
+        Further bounds, in SI units (``gt``: greater than, ``ge``: at least, ...).
+    shape : str
+        ``"one"`` (a single value), ``"list"`` (an array of values) or ``"one_or_list"``.
+    length : int or str, optional
+        The length of a list, or the key in the same table whose list or bands it
+        aligns with (e.g. ``"bands_hz"``).
+    group : str
+        Keys of one group are alternatives: at most one may be given.
+    needs : tuple of str
+        Keys of the same table that must be given with this one.
+    schema : dict, optional
+        The keys of a ``"table"``, ``"tables"`` or ``"named"`` value.
+    tag, variants : str, dict
+        For ``"tables"`` whose entries differ by one key (e.g. a leak's ``shape``):
+        ``variants`` maps each value of the ``tag`` key to the schema of those entries.
+    unique : str
+        For ``"tables"``: a key whose value must differ between the entries (a name).
+    default : object
+        The value used when the key is absent (converted, SI); also documented.
+    doc : str
+        One line for the key reference.
+    read : callable, optional
+        ``read(value, field, key_path, reader)`` for a kind that a file module reads
+        itself (stack layer lists); returns the value or records problems on ``reader``
+        and returns :data:`noisebudget.schema.INVALID`.
     """
 
     kind: str
@@ -47,6 +108,22 @@ class Field:
     positive: bool = True
     choices: tuple[str, ...] = ()
     allow_zero: bool = False
+    _: KW_ONLY
+    gt: float | None = None
+    ge: float | None = None
+    lt: float | None = None
+    le: float | None = None
+    shape: str = "one"
+    length: int | str | None = None
+    group: str = ""
+    needs: tuple[str, ...] = ()
+    schema: Mapping | None = field(default=None, compare=False, hash=False)
+    tag: str = ""
+    variants: Mapping | None = field(default=None, compare=False, hash=False)
+    unique: str = ""
+    default: Any = None
+    doc: str = ""
+    read: Callable | None = field(default=None, compare=False, hash=False)
 
 
 @dataclass(frozen=True)

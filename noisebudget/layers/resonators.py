@@ -40,7 +40,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from .base import Field, Layer, LayerValueError, SheetElement
+from .base import Field, Layer, LayerValueError, LayerValueErrors, SheetElement
 
 __all__ = ["Cell", "Tile"]
 
@@ -270,66 +270,50 @@ class Tile(Layer):
         return replace(self, cells=tuple(cells))
 
     @classmethod
-    def parse_tables(cls, values, file, where, errors):
-        """Parse the ``[[layer.cell]]`` tables (called by the stack-file parser)."""
-        from ..errors import InputError
-        from ..stackfile import parse_fields
-
-        tables = values.get("cell")
-        if not isinstance(tables, list) or not tables:
-            errors.append(InputError(file, f"{where}.cell",
-                                     "a tile needs at least one [[layer.cell]] table"))
-            return values
-        cells = []
-        for i, table in enumerate(tables):
-            here = f"{where}.cell[{i + 1}]"
-            if not isinstance(table, dict):
-                errors.append(InputError(file, here, "expected a table"))
-                continue
-            before = len(errors)
-            v = parse_fields(table, CELL_SCHEMA, file, here, errors, skip=("name",))
-            if "tension" in v and "prestress" in v:
-                errors.append(InputError(file, here, "give tension or prestress, not both"))
-            elif "tension" not in v and "prestress" not in v:
-                errors.append(InputError(file, f"{here}.tension", "missing required key "
-                                                                  "(or give prestress)"))
-            if len(errors) > before:
-                continue
-            tension = v.get("tension", v.get("prestress", 0.0) * v["membrane_thickness"])
+    def from_values(cls, values):
+        """Build from the file schema's SI values; ``values["cell"]`` is a list of dicts
+        keyed as :data:`CELL_SCHEMA` (a cell's ``prestress`` sigma gives T = sigma h)."""
+        cells, errors = [], []
+        for i, v in enumerate(values["cell"], start=1):
+            tension = v["tension"] if "tension" in v else v["prestress"] * v["membrane_thickness"]
             try:
                 cells.append(Cell(v["radius"], v["membrane_thickness"], v["membrane_density"],
-                                  tension, v.get("mass", 0.0), v.get("mass_radius", 0.0),
-                                  v.get("loss_factor", 0.05), v.get("share", 1.0)))
+                                  tension, v["mass"], v["mass_radius"], v["loss_factor"],
+                                  v["share"]))
             except LayerValueError as exc:
-                errors.append(InputError(file, f"{here}.{exc.key}", exc.reason))
-        values = dict(values)
-        values["cell"] = tuple(cells)
-        return values
-
-    @classmethod
-    def from_values(cls, values):
-        return cls(cells=values["cell"], pitch=values["pitch"],
-                   frame=values.get("frame", "floating"),
-                   frame_areal_mass=values.get("frame_areal_mass", 0.0),
+                errors.append(LayerValueError(f"cell[{i}].{exc.key}", exc.reason))
+        if errors:
+            raise LayerValueErrors(errors)
+        return cls(cells=tuple(cells), pitch=values["pitch"], frame=values["frame"],
+                   frame_areal_mass=values["frame_areal_mass"],
                    tile_thickness=values.get("thickness", 0.0))
 
 
 CELL_SCHEMA = {
-    "share": Field("number"),
-    "radius": Field("length", required=True),
-    "membrane_thickness": Field("length", required=True),
-    "membrane_density": Field("density", required=True),
-    "tension": Field("tension"),
-    "prestress": Field("pressure"),
-    "mass": Field("mass", allow_zero=True),
-    "mass_radius": Field("length", allow_zero=True),
-    "loss_factor": Field("number", allow_zero=True),
+    "share": Field("number", le=1.0, default=1.0, doc="fraction of the cells of this kind "
+                                                      "(the shares sum to 1)"),
+    "radius": Field("length", required=True, doc="membrane radius a"),
+    "membrane_thickness": Field("length", required=True, doc="membrane thickness h"),
+    "membrane_density": Field("density", required=True, doc="membrane material density"),
+    "tension": Field("tension", group="tension", required=True,
+                     doc="membrane tension per unit length T"),
+    "prestress": Field("pressure", group="tension", required=True,
+                       doc="membrane stress sigma (T = sigma h)"),
+    "mass": Field("mass", allow_zero=True, default=0.0, doc="central disk mass M"),
+    "mass_radius": Field("length", allow_zero=True, default=0.0,
+                         doc="central disk radius r0 (< radius; > 0 with a mass)"),
+    "loss_factor": Field("number", allow_zero=True, le=2.0, default=0.05,
+                         doc="loss factor eta of the complex tension T (1 + j eta)"),
+    "name": Field("name", doc="label of the cell kind"),
 }
 
 Tile.schema = {
-    "frame": Field("choice", choices=("clamped", "floating")),
-    "pitch": Field("length", required=True),
-    "frame_areal_mass": Field("surface_density", allow_zero=True),
-    "thickness": Field("length"),
-    "cell": Field("tables", required=True),
+    "frame": Field("choice", choices=("clamped", "floating"), default="floating",
+                   doc="the grid: clamped (does not move) or floating (a limp mass)"),
+    "pitch": Field("length", required=True, doc="grid pitch (cell centre spacing)"),
+    "frame_areal_mass": Field("surface_density", allow_zero=True, default=0.0,
+                              doc="grid mass per tile area (> 0 for a floating grid)"),
+    "thickness": Field("length", doc="tile thickness, for drawings and totals"),
+    "cell": Field("tables", required=True, schema=CELL_SCHEMA,
+                  doc="the cell kinds, one [[layer.cell]] table each"),
 }
