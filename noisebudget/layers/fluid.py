@@ -43,4 +43,5 @@ class AirGap(Layer):
         return cls(gap=values["thickness"])
 
 
-AirGap.schema = {"thickness": Field("length", required=True, allow_zero=True)}
+AirGap.schema = {"thickness": Field("length", required=True, allow_zero=True,
+                                    doc="gap thickness (0 changes nothing)")}

@@ -54,8 +54,8 @@ class Septum(Layer):
 
 
 Septum.schema = {
-    "surface_density": Field("surface_density", required=True),
-    "thickness": Field("length"),
+    "surface_density": Field("surface_density", required=True, doc="mass per unit area m"),
+    "thickness": Field("length", doc="sheet thickness, for drawings and totals"),
 }
 
 
@@ -132,6 +132,10 @@ class Plate(Layer):
                 raise LayerValueError(k, "missing: a plate needs thickness, density and "
                                          "youngs_modulus (or surface_density and "
                                          "bending_stiffness)")
+        mixed = [k for k in direct if k in values]
+        if mixed:  # one set or the other: a value of the other set would be ignored
+            raise LayerValueError(mixed[0], "give density and youngs_modulus, or "
+                                            "surface_density and bending_stiffness, not both")
         nu = values.get("poisson_ratio", 0.3)
         if not 0.0 <= nu < 0.5:
             raise LayerValueError("poisson_ratio", f"must lie in [0, 0.5), got {nu}")
@@ -140,11 +144,15 @@ class Plate(Layer):
 
 
 Plate.schema = {
-    "thickness": Field("length"),
-    "density": Field("density"),
-    "youngs_modulus": Field("modulus"),
-    "poisson_ratio": Field("number", allow_zero=True),
-    "loss_factor": Field("number", allow_zero=True),
-    "surface_density": Field("surface_density"),
-    "bending_stiffness": Field("bending_stiffness"),
+    "thickness": Field("length", doc="plate thickness h"),
+    "density": Field("density", doc="material density (with thickness and youngs_modulus)"),
+    "youngs_modulus": Field("modulus", doc="Young's modulus E"),
+    "poisson_ratio": Field("number", allow_zero=True, lt=0.5, default=0.3,
+                           doc="Poisson's ratio nu"),
+    "loss_factor": Field("number", allow_zero=True, le=2.0, default=0.01,
+                         doc="structural loss factor eta"),
+    "surface_density": Field("surface_density",
+                             doc="mass per unit area m (instead of density and thickness)"),
+    "bending_stiffness": Field("bending_stiffness",
+                               doc="bending stiffness D (instead of youngs_modulus)"),
 }

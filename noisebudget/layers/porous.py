@@ -199,12 +199,13 @@ class Porous(Layer):
 
 
 Porous.schema = {
-    "model": Field("choice", required=True, choices=MODELS),
-    "thickness": Field("length", required=True),
-    "flow_resistivity": Field("flow_resistivity", required=True),
-    "porosity": Field("number"),
-    "tortuosity": Field("number"),
-    "viscous_length": Field("length"),
-    "thermal_length": Field("length"),
-    "bulk_density": Field("density"),
+    "model": Field("choice", required=True, choices=MODELS, doc="equivalent-fluid model"),
+    "thickness": Field("length", required=True, doc="layer thickness"),
+    "flow_resistivity": Field("flow_resistivity", required=True,
+                              doc="static airflow resistivity sigma"),
+    "porosity": Field("number", le=1.0, doc="open porosity phi (jca, jca-limp)"),
+    "tortuosity": Field("number", ge=1.0, doc="tortuosity alpha_inf (jca, jca-limp)"),
+    "viscous_length": Field("length", doc="viscous characteristic length Lambda"),
+    "thermal_length": Field("length", doc="thermal characteristic length Lambda'"),
+    "bulk_density": Field("density", doc="bulk density of the frame (mass; jca-limp)"),
 }

@@ -55,7 +55,8 @@ class Screen(Layer):
 
 
 Screen.schema = {
-    "flow_resistance": Field("flow_resistance", required=True),
-    "surface_density": Field("surface_density", allow_zero=True),
-    "thickness": Field("length"),
+    "flow_resistance": Field("flow_resistance", required=True, doc="flow resistance R"),
+    "surface_density": Field("surface_density", allow_zero=True,
+                             doc="mass per unit area m (0: the screen does not move)"),
+    "thickness": Field("length", doc="screen thickness, for drawings and totals"),
 }
