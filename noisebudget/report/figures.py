@@ -21,6 +21,7 @@ def _plt():
     # matplotlib and is on the machine for weasyprint
     plt.rcParams.update({"svg.fonttype": "none", "font.family": "DejaVu Sans",
                          "font.size": 8, "axes.grid": True, "grid.alpha": 0.3})
+    plt.rcParams["text.parse_math"] = False  # user names are text, never math markup
     return plt
 
 
