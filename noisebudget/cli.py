@@ -12,7 +12,10 @@ __all__ = ["main"]
 
 
 def _warning_line(message, category, filename, lineno, file=None, line=None):
-    print(f"warning: {message}", file=sys.stderr)
+    from .errors import InputNote
+
+    word = "note" if issubclass(category, InputNote) else "warning"
+    print(f"{word}: {message}", file=sys.stderr)
 
 
 def _grid(args):
@@ -164,11 +167,12 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv=None) -> int:
     """Entry point; returns the exit status."""
-    from .errors import ModelRangeWarning
+    from .errors import InputNote, ModelRangeWarning
 
     args = build_parser().parse_args(argv)
     with warnings.catch_warnings():
         warnings.simplefilter("once", ModelRangeWarning)
+        warnings.simplefilter("default", InputNote)
         warnings.showwarning = _warning_line
         return _run(args)
 
