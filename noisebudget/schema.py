@@ -85,9 +85,11 @@ class Reader:
         return Reader(str(file), base_dir, self.problems, self.shared, chain)
 
     def raise_problems(self) -> None:
-        """Raise :class:`InputErrors` listing every problem recorded, if any."""
+        """Raise :class:`InputErrors` listing every problem recorded, if any (a problem
+        met twice, e.g. in a stack file inserted twice, once)."""
         if self.problems:
-            raise InputErrors(self.problems)
+            seen = {(p.file, p.key, p.reason): p for p in self.problems}
+            raise InputErrors(list(seen.values()))
 
 
 def read_toml(path) -> dict:
@@ -310,8 +312,14 @@ def _bands(value, spec: Field, file: str, path: str, width: str = "third"):
     return ref
 
 
+def _raw(value, spec: Field, file: str, path: str):
+    """Any TOML value, kept as it is: its file module reads it later against another
+    field (a trade study's values take the kind of the key they vary)."""
+    return value
+
+
 _LEAVES = {"integer": _integer, "boolean": _boolean, "choice": _choice, "name": _name,
-           "text": _text, "date": _date, "path": _path}
+           "text": _text, "date": _date, "path": _path, "raw": _raw}
 
 
 # ---------------------------------------------------------------------------- values
@@ -519,7 +527,9 @@ def describe(spec: Field) -> str:
                "choice": " | ".join(f'"{c}"' for c in spec.choices),
                "name": "name (string)", "text": "text (string)",
                "date": "date (2026-12-02) or text", "path": "file name (string), relative "
-               "to this file", "bands": "list of nominal band frequencies in Hz",
+               "to this file", "bands": "list of consecutive nominal one-third-octave band "
+               "frequencies in Hz (ISO 266, 10 Hz to 20 kHz), e.g. [100, 125, 160]",
+               "layers": "array of layer tables (see *Layer entries*)", "raw": "any value",
                "table": "table", "tables": "array of tables", "named": "tables keyed by name"
                }.get(kind, kind)
     if spec.shape == "list":

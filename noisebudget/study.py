@@ -110,7 +110,7 @@ PACKAGE: dict[str, Field] = {
                                doc="fasteners, brackets and seals per unit area"),
     "notes": Field("text", doc="free text"),
     "zone": Field("named", schema=PACKAGE_ZONE,
-                  doc="[package.zone.NAME]: the stack of zone NAME"),
+                  doc="the stack of each zone: one table per zone NAME"),
 }
 
 # ------------------------------------------------------------------ [targets]

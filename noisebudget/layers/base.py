@@ -65,9 +65,11 @@ class Field:
         ``"db"``, ``"deg"`` (plain numbers in dB or degrees), ``"integer"``,
         ``"boolean"``, ``"choice"`` (one of ``choices``), ``"name"`` (a label: no control
         characters), ``"text"``, ``"date"``, ``"path"`` (a file, relative to the file
-        that names it), ``"bands"`` (nominal band frequencies in Hz), ``"table"`` (keys of
-        ``schema``), ``"tables"`` (an array of such tables), ``"named"`` (tables keyed by
-        a name of the user's, each with the keys of ``schema``), or a kind read by ``read``.
+        that names it), ``"bands"`` (nominal band frequencies in Hz; octave bands where
+        the table's ``bandwidth`` key, declared before, says ``"octave"``), ``"raw"`` (any
+        value, read later against another field), ``"table"`` (keys of ``schema``),
+        ``"tables"`` (an array of such tables), ``"named"`` (tables keyed by a name of the
+        user's, each with the keys of ``schema``), or a kind read by ``read``.
     required : bool
         The key must be given (for a ``group``: one key of the group must be given).
     positive, allow_zero : bool
