@@ -11,7 +11,7 @@ from pathlib import Path
 
 from .layers.base import Field
 from .schema import describe, range_text
-from .units import QUANTITIES
+from .units import LIMITS, QUANTITIES
 
 __all__ = ["markdown", "main"]
 
@@ -105,6 +105,13 @@ def markdown() -> str:
            "finite; ranges are shown in SI units. Key paths in messages count from 1: "
            "`layer[2].cell[1].tension`. `noisebudget check` lists every problem of a "
            "study file, one line each."]
+    out += ["", "Beyond each key's own range, a quantity's size must lie in the span the "
+            "models are meant for (zero stays allowed where a key allows it); a value "
+            "outside is a slip of unit or exponent:", "",
+            "| quantity | SI unit | example | smallest size | largest size |",
+            "| --- | --- | --- | --- | --- |"]
+    out += [f"| {kind.replace('_', ' ')} | {si} | `{example}` | {LIMITS[kind][0]:g} | "
+            f"{LIMITS[kind][1]:g} |" for kind, (si, example) in QUANTITIES.items()]
     seen = {id(AIR_STATE): "Air tables"}
     _section("Stack files", STACK_FILE, 2,
              "A stack file lists its layers from the source (exterior) side to the "

@@ -82,9 +82,9 @@ def build_layer(table: dict, where: str, reader: Reader, schema_extra=None):
     cls = LAYER_TYPES[kind]
     before = len(reader.problems)
     values = read_table(table, {**layer_schema(cls), **(schema_extra or {})}, where, reader)
-    for key in cls.required_by(table):
-        if key not in table:
-            reader.problem(join(where, key), f"missing: model {table.get('model')!r} needs it")
+    for key in cls.required_by(values):  # the values as read: a bad model needs nothing
+        if not values.given(key):
+            reader.problem(join(where, key), f"missing: model {values.get('model')!r} needs it")
     if len(reader.problems) > before:
         return INVALID
     try:

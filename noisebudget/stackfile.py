@@ -129,6 +129,11 @@ def _layer_entry(entry: dict, where: str, reader: Reader):
     label = None
     if "use" in table:
         key = table.pop("use")
+        if not isinstance(key, str):
+            reader.problem(join(where, "use"), "expected a catalog entry name such as "
+                                               f"\"skin.al2024-t3-1.6mm\", got "
+                                               f"{show(key, typed=True)}")
+            return INVALID
         catalog = reader.shared.get("catalog") or load_catalog()
         try:
             base = catalog.get(key, reader.file, join(where, "use"))

@@ -12,7 +12,7 @@ import re
 
 from .errors import InputError
 
-__all__ = ["QUANTITIES", "registry", "parse_quantity", "parse_dimensionless"]
+__all__ = ["LIMITS", "QUANTITIES", "registry", "parse_quantity", "parse_dimensionless"]
 
 # kind -> (SI unit pint understands, an example for messages)
 QUANTITIES: dict[str, tuple[str, str]] = {
@@ -31,6 +31,28 @@ QUANTITIES: dict[str, tuple[str, str]] = {
     "area": ("m^2", '"12.5 m^2"'),
     "volume": ("m^3", '"40 m^3"'),
     "time": ("s", '"0.6 s"'),
+}
+
+
+# magnitudes (SI) that the models and the arithmetic after them are meant for: a value
+# outside is a slip of unit or of exponent, never a real sidewall (zero stays allowed
+# where a key allows it)
+LIMITS: dict[str, tuple[float, float]] = {
+    "length": (1e-7, 1e5),
+    "density": (1e-2, 1e5),
+    "surface_density": (1e-5, 1e4),
+    "mass": (1e-9, 1e3),
+    "modulus": (1e2, 1e13),
+    "pressure": (1e-2, 1e10),
+    "temperature": (1.0, 1e4),
+    "flow_resistivity": (1.0, 1e9),
+    "flow_resistance": (1e-3, 1e8),
+    "tension": (1e-6, 1e9),
+    "bending_stiffness": (1e-12, 1e10),
+    "frequency": (1.0, 1e5),
+    "area": (1e-6, 1e6),
+    "volume": (1e-3, 1e6),
+    "time": (1e-3, 1e3),
 }
 
 
@@ -81,6 +103,10 @@ def _to_si(text: str, kind: str) -> float | str:
         return f"{text!r} is not {a} {label} (expected units of {si}, e.g. {example})"
     if not math.isfinite(out):
         return f"{text!r} is not a finite number"
+    lo, hi = LIMITS[kind]
+    if out != 0 and not lo <= abs(out) <= hi:
+        return (f"{text!r} is outside the range of {a} {label} that noisebudget handles "
+                f"({lo:g} to {hi:g} {si} in size)")
     return out
 
 

@@ -181,9 +181,10 @@ class Layer:
         return {f.name: getattr(self, f.name) for f in fields(self) if f.init}
 
     @classmethod
-    def required_by(cls, table: dict) -> tuple[str, ...]:
-        """Keys that other values of the table make required (e.g. a porous model's
-        parameters); the parser reports each one missing."""
+    def required_by(cls, values: dict) -> tuple[str, ...]:
+        """Keys that other values make required (e.g. a porous model's parameters), given
+        the table's values as read (only valid values); the parser reports each one
+        missing."""
         return ()
 
     @classmethod

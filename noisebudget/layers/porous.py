@@ -204,7 +204,7 @@ Porous.schema = {
     "flow_resistivity": Field("flow_resistivity", required=True,
                               doc="static airflow resistivity sigma"),
     "porosity": Field("number", le=1.0, doc="open porosity phi (jca, jca-limp)"),
-    "tortuosity": Field("number", ge=1.0, doc="tortuosity alpha_inf (jca, jca-limp)"),
+    "tortuosity": Field("number", ge=1.0, le=20.0, doc="tortuosity alpha_inf (jca, jca-limp)"),
     "viscous_length": Field("length", doc="viscous characteristic length Lambda"),
     "thermal_length": Field("length", doc="thermal characteristic length Lambda'"),
     "bulk_density": Field("density", doc="bulk density of the frame (mass; jca-limp)"),
