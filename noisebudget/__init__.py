@@ -16,7 +16,7 @@ __version__ = "0.1.0"
 
 def __getattr__(name):
     """Study functions import pandas; load them on first use so the package imports fast."""
-    if name in ("load_study", "run_study"):
+    if name in ("load_study", "parse_study", "run_study"):
         from . import study
 
         return getattr(study, name)
@@ -25,4 +25,4 @@ def __getattr__(name):
 __all__ = ["a_weighting", "c_weighting", "octave_bands", "ratings", "third_octave_bands",
            "Air", "AirGap", "InputError", "InputErrors", "ModelRangeWarning", "Plate",
            "Porous", "Screen", "Septum", "Stack", "__version__", "load_stack", "load_study",
-           "run_study", "parse_stack", "standard_atmosphere"]
+           "run_study", "parse_stack", "parse_study", "standard_atmosphere"]
