@@ -6,7 +6,6 @@ back), and ``str()`` of each is the line the command line prints.
 
 from __future__ import annotations
 
-import datetime
 import re
 
 __all__ = ["InputError", "InputErrors", "InputNote", "ModelRangeWarning", "show", "toml_type"]
@@ -91,6 +90,8 @@ class ModelRangeWarning(UserWarning):
 def toml_type(value) -> str:
     """The TOML name of a parsed value's type: string, integer, float, boolean, array,
     table, array of tables, date, time or date-time."""
+    import datetime  # on first use: keeps the package import light
+
     if isinstance(value, bool):
         return "boolean"
     if isinstance(value, int):

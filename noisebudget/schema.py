@@ -12,7 +12,6 @@ reference ``docs/file-keys.md`` is generated from the same dicts (:mod:`noisebud
 
 from __future__ import annotations
 
-import difflib
 import math
 import re
 import tomllib
@@ -117,6 +116,8 @@ def read_toml(path) -> dict:
 
 def suggest(word, options) -> str:
     """``"; did you mean 'x'?"`` for the nearest spelling among ``options``, or ``""``."""
+    import difflib
+
     near = difflib.get_close_matches(str(word), [str(o) for o in options], n=1, cutoff=0.6)
     return f"; did you mean {near[0]!r}?" if near else ""
 
