@@ -218,19 +218,21 @@ def _number(value, spec: Field, file: str, path: str) -> float:
         x = float(value)
         if not math.isfinite(x):
             raise InputError(file, path, f"{show(value)} is not a finite number")
-    bounds = _bounds(spec)
-    if not all(_OPS[op](x, v) for op, v in bounds):
-        verb = "lie in" if range_text(spec)[0] in "([" else "be"
-        raise InputError(file, path, f"must {verb} {range_text(spec)}, got {show(value)}")
+    _check_bounds(x, value, spec, file, path)
     return x
+
+
+def _check_bounds(x, value, spec: Field, file: str, path: str) -> None:
+    if not all(_OPS[op](x, v) for op, v in _bounds(spec)):
+        text = range_text(spec)
+        verb = "lie in" if text[0] in "([" else "be"
+        raise InputError(file, path, f"must {verb} {text}, got {show(value)}")
 
 
 def _integer(value, spec: Field, file: str, path: str) -> int:
     if isinstance(value, bool) or not isinstance(value, int):
         raise InputError(file, path, f"expected an integer, got {show(value, typed=True)}")
-    for op, v in _bounds(spec):
-        if not _OPS[op](value, v):
-            raise InputError(file, path, f"must be {range_text(spec)}, got {value}")
+    _check_bounds(value, value, spec, file, path)
     return value
 
 
@@ -332,6 +334,10 @@ def read_value(value, spec: Field, path: str, reader: Reader, siblings: Values |
     try:
         if spec.read is not None:
             return spec.read(value, spec, path, reader)
+        if spec.kind in ("table", "tables", "named") and spec.schema is None \
+                and spec.variants is None:
+            raise TypeError(f"schema of {path}: a {spec.kind!r} field needs schema= (or "
+                            "tag= and variants=) to read its tables")
         if spec.kind == "table":
             return read_table(value, spec.schema or {}, path, reader)
         if spec.kind == "tables":
