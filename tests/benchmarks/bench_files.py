@@ -11,19 +11,10 @@ import subprocess
 import sys
 import time
 
-import numpy as np
+from bench_stack import best_ms  # the script's folder is on the path
 
 import noisebudget as nb
 from noisebudget.resources import data_path
-
-
-def best_ms(fn, repeat):
-    best = np.inf
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t0)
-    return best * 1e3
 
 
 def main():
