@@ -7,8 +7,10 @@ another type or a plausible one, a key dropped or added, an entry repeated). Eac
 written as TOML text and read back through the public loaders.
 """
 
+import atexit
 import copy
 import datetime
+import shutil
 import tempfile
 import tomllib
 import warnings
@@ -25,6 +27,7 @@ from noisebudget.budget import compute_budget
 from noisebudget.errors import InputError, InputNote, ModelRangeWarning
 
 FOLDER = Path(tempfile.mkdtemp(prefix="nb-properties-"))
+atexit.register(shutil.rmtree, FOLDER, True)
 (FOLDER / "part.toml").write_text(PART)
 
 KEYS = ["layer", "type", "use", "stack", "thickness", "name", "cell", "tension", "source_air",
