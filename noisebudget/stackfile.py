@@ -21,7 +21,8 @@ from .units import parse_dimensionless, parse_quantity
 
 __all__ = ["load_stack", "parse_air", "parse_layer", "parse_stack", "read_toml"]
 
-_LAYER_META = ("type", "use", "name", *META_KEYS)
+_LAYER_META = ("type", "use", "name", "bonding", *META_KEYS)
+BONDING = ("bonded", "unbonded")  # every layer's contact with the previous layer
 
 
 def read_toml(path) -> dict:
@@ -176,14 +177,25 @@ def parse_stack(data: dict, file: str = "", where: str = "", catalog=None) -> St
         errors.append(InputError(file, prefix + "layer", "use [[layer]] (an array of "
                                                         "tables)"))
         tables = []
-    layers, labels = [], []
+    layers, labels, bonding = [], [], []
     for i, table in enumerate(tables):
         layer, label = parse_layer(table, file, f"{prefix}layer[{i + 1}]", catalog, errors)
         layers.append(layer)
         labels.append(label)
+        bonding.append(_parse_bonding(table, file, f"{prefix}layer[{i + 1}]", errors))
     if errors:
         raise InputErrors(errors)
-    return Stack(tuple(layers), src, rcv, cav, tuple(labels))
+    return Stack(tuple(layers), src, rcv, cav, tuple(labels), tuple(bonding))
+
+
+def _parse_bonding(table, file: str, where: str, errors: list) -> str:
+    """A layer's ``bonding`` to the previous layer: "bonded" (default) or "unbonded"."""
+    value = table.get("bonding", "bonded") if isinstance(table, dict) else "bonded"
+    if value not in BONDING:
+        errors.append(InputError(file, f"{where}.bonding", f"unknown value {value!r} "
+                                 f"(one of {', '.join(BONDING)})"))
+        return "bonded"
+    return value
 
 
 def load_stack(path) -> Stack:
