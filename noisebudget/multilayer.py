@@ -276,12 +276,13 @@ def _batch(*arrays):
     return [np.broadcast_to(x, shape + np.shape(x)[-2:]) for x in arrays]
 
 
-def _solve_small(lhs, rhs):
-    """Batched solve with row equilibration (rows of stresses and velocities differ by
-    orders of magnitude in elastic media)."""
-    scale = np.max(np.abs(lhs), axis=-1, keepdims=True)
-    scale = np.where(scale > 0, scale, 1.0)
-    lhs, rhs = lhs / scale, rhs / scale
+def _solve_small(lhs, rhs, equilibrate=True):
+    """Batched solve, rows equilibrated where a sheet's impedance makes them unequal
+    (a contact's rows combine unit columns with weights of order one)."""
+    if equilibrate:
+        scale = np.max(np.abs(lhs), axis=-1, keepdims=True)
+        scale = np.where(scale > 0, scale, 1.0)
+        lhs, rhs = lhs / scale, rhs / scale
     try:
         return np.linalg.solve(lhs, rhs)
     except np.linalg.LinAlgError:  # an exactly degenerate point: least squares there
@@ -347,7 +348,7 @@ def solve(layers, bonding, elements, omega, kt, source, kz1, receiver=None, kz2=
         cols = [ga @ above.up, gb @ basis] + ([] if gx is None else [gx])
         cols = _batch(*cols)
         rhs = _batch(-(ga @ above.down), cols[0])[0]
-        sol = _solve_small(np.concatenate(cols, axis=-1), rhs)
+        sol = _solve_small(np.concatenate(cols, axis=-1), rhs, gx is not None)
         m_a, m_b = above.size, basis.shape[-1]
         refl = sol[..., :m_a, :]
         transfers.append(sol[..., m_a:m_a + m_b, :])

@@ -68,10 +68,6 @@ def normal_wavenumber(k2, kt):
     return np.where(np.abs(kz) < floor, floor + 0j, kz)
 
 
-def _normalise(m):
-    return m / np.sqrt(np.sum(m.real**2 + m.imag**2, axis=-2, keepdims=True))
-
-
 def _decay(kz, thickness):
     with np.errstate(under="ignore"):
         return np.exp(-1j * kz * thickness)
@@ -99,34 +95,45 @@ def fluid_medium(density, bulk_modulus, thickness, omega, kt, zref) -> Medium:
     kz = normal_wavenumber(omega**2 * density / bulk_modulus, kt)
     y = zref * kz / (omega * density)
     one = np.ones_like(y)
-    down = _normalise(np.stack([one, y], -1)[..., None])
-    up = _normalise(np.stack([one, -y], -1)[..., None])
+    down = _normalise_columns(np.stack([one, y], -1)[..., None])
+    up = _normalise_columns(np.stack([one, -y], -1)[..., None])
     return Medium("F", down, up, _decay(kz, thickness)[..., None])
 
 
-def _elastic_columns(omega, kt, kz, dil, shear_mod, zref, fluid=None):
-    """States of a compressional (``dil`` set) or shear wave with normal wavenumber kz.
+def _elastic_column(out, omega, kt, kz, dil, shear_mod, zref, fluid=None):
+    """Write into ``out`` (..., n), a column of a basis, the state of a compressional
+    (``dil`` set) or shear wave with normal wavenumber kz.
 
     Displacement ``u = (kt, kz)`` (compressional) or ``(kz, -kt)`` (shear), velocity
     ``j omega u``; strains ``eps_zz = -j kz u_z``, ``eps_xz = -j (kz u_x + kt u_z) / 2``.
     ``dil`` is ``(lambda + Q mu) delta^2`` for a compressional wave (the isotropic
     stress ``-j dil``), None for shear; ``fluid`` is ``(mu, fluid stress)`` in a Biot
-    medium.
+    medium, whose state has the fluid velocity third and the fluid stress last.
     """
     jw = 1j * omega * zref
     if dil is not None:
-        cols = [jw * kt, jw * kz]
+        vx, vz = jw * kt, jw * kz
         szz = -1j * (dil + 2 * shear_mod * kz**2)
         sxz = -2j * shear_mod * kt * kz
     else:
-        cols = [jw * kz, -jw * kt]
+        vx, vz = jw * kz, -jw * kt
         szz = 2j * shear_mod * kt * kz
         sxz = -1j * shear_mod * (kz**2 - kt**2)
     if fluid is None:
-        return np.stack(np.broadcast_arrays(*cols, szz, sxz), -1)
-    mu, sf = fluid
-    vf = mu * cols[1]
-    return np.stack(np.broadcast_arrays(*cols, vf, szz, sxz, sf), -1)
+        values = (vx, vz, szz, sxz)
+    else:
+        mu, sf = fluid
+        values = (vx, vz, mu * vz, szz, sxz, sf)
+    for i, v in enumerate(values):
+        out[..., i] = v
+
+
+def _normalise_columns(m):
+    """Divide each column of the stacks m (..., n, k) by its length, in place."""
+    flat = m.view(float)  # real and imaginary parts side by side: (..., n, 2k)
+    sq = np.einsum("...ij,...ij->...j", flat, flat)
+    m /= np.sqrt(sq[..., 0::2] + sq[..., 1::2])[..., None, :]
+    return m
 
 
 def solid_medium(el, omega, kt, zref) -> Medium:
@@ -141,14 +148,16 @@ def solid_medium(el, omega, kt, zref) -> Medium:
     kl2 = omega**2 * el.density / (lam + 2 * mu)
     kt2 = omega**2 * el.density / mu
     kzl, kzt = normal_wavenumber(kl2, kt), normal_wavenumber(kt2, kt)
+    shape = np.broadcast_shapes(np.shape(kzl), np.shape(kzt))
     cols = {}
     for sign in (1, -1):
-        cols[sign] = np.stack(np.broadcast_arrays(
-            _elastic_columns(omega, kt, sign * kzl, lam * kl2, mu, zref),
-            _elastic_columns(omega, kt, sign * kzt, None, mu, zref)), -1)
-    decay = np.stack(np.broadcast_arrays(_decay(kzl, el.thickness),
-                                         _decay(kzt, el.thickness)), -1)
-    return Medium("S", _normalise(cols[1]), _normalise(cols[-1]), decay)
+        out = np.empty(shape + (4, 2), complex)
+        _elastic_column(out[..., 0], omega, kt, sign * kzl, lam * kl2, mu, zref)
+        _elastic_column(out[..., 1], omega, kt, sign * kzt, None, mu, zref)
+        cols[sign] = _normalise_columns(out)
+    decay = np.empty(shape + (2,), complex)
+    decay[..., 0], decay[..., 1] = _decay(kzl, el.thickness), _decay(kzt, el.thickness)
+    return Medium("S", cols[1], cols[-1], decay)
 
 
 def biot_medium(el, omega, kt, zref) -> Medium:
@@ -168,16 +177,18 @@ def biot_medium(el, omega, kt, zref) -> Medium:
     mu3 = -el.rho12 / el.rho22
     kz = [normal_wavenumber(s[..., 0], kt), normal_wavenumber(s[..., 1], kt),
           normal_wavenumber(s3, kt)]
+    shape = np.broadcast_shapes(*[np.shape(k) for k in kz])
     cols = {}
     for sign in (1, -1):
-        waves = []
+        out = np.empty(shape + (6, 3), complex)
         for i in range(2):
             dil = (el.p - 2 * el.n + el.q * mu[..., i]) * s[..., i]
             sf = -1j * (el.q + el.r * mu[..., i]) * s[..., i]
-            waves.append(_elastic_columns(omega, kt, sign * kz[i], dil, el.n, zref,
-                                          (mu[..., i], sf)))
-        waves.append(_elastic_columns(omega, kt, sign * kz[2], None, el.n, zref,
-                                      (mu3, np.zeros_like(kz[2]))))
-        cols[sign] = np.stack(np.broadcast_arrays(*waves), -1)
-    decay = np.stack(np.broadcast_arrays(*[_decay(k, el.thickness) for k in kz]), -1)
-    return Medium("P", _normalise(cols[1]), _normalise(cols[-1]), decay, el.porosity)
+            _elastic_column(out[..., i], omega, kt, sign * kz[i], dil, el.n, zref,
+                            (mu[..., i], sf))
+        _elastic_column(out[..., 2], omega, kt, sign * kz[2], None, el.n, zref, (mu3, 0.0))
+        cols[sign] = _normalise_columns(out)
+    decay = np.empty(shape + (3,), complex)
+    for i in range(3):
+        decay[..., i] = _decay(kz[i], el.thickness)
+    return Medium("P", cols[1], cols[-1], decay, el.porosity)
