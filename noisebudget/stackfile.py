@@ -16,13 +16,13 @@ from .catalog import META_KEYS, load_catalog
 from .errors import InputError, InputErrors
 from .layers import LAYER_TYPES, LayerValueError
 from .media import Air
+from .multilayer import BONDING  # every layer's contact with the previous layer
 from .stack import Stack
 from .units import parse_dimensionless, parse_quantity
 
 __all__ = ["load_stack", "parse_air", "parse_layer", "parse_stack", "read_toml"]
 
 _LAYER_META = ("type", "use", "name", "bonding", *META_KEYS)
-BONDING = ("bonded", "unbonded")  # every layer's contact with the previous layer
 
 
 def read_toml(path) -> dict:
