@@ -220,3 +220,32 @@ def test_shipped_catalog_entries_and_example_compute():
     assert any(getattr(layer, "elastic", False) for layer in s.layers)
     tau = s.transmission_coefficient(np.geomspace(50, 10000, 30), np.radians([0, 45, 80]))
     assert np.all(np.isfinite(tau)) and np.all((tau >= 0) & (tau <= 1))
+
+
+def test_bonded_halves_make_the_whole_layer():
+    # Continuity conditions between two bonded layers of the same material (Biot:
+    # Deresiewicz & Skalak 1963 open-pore contact; solid: welded contact) must leave the
+    # waves undisturbed: two halves transmit as the whole layer
+    f = np.array([100.0, 1000.0, 6000.0])
+    th = np.radians([0.0, 35.0, 70.0])
+    for make in (lambda d: nb.Porous("biot", d, **FOAM),
+                 lambda d: nb.Solid(d, 1200.0, 5e6, 0.49, 0.15)):
+        whole = nb.Stack([make(0.04)]).transmission_coefficient(f, th)
+        halves = nb.Stack([make(0.015), make(0.025)]).transmission_coefficient(f, th)
+        np.testing.assert_allclose(halves, whole, rtol=1e-7)
+
+
+def test_leading_variant_axis_equals_a_loop_over_stacks():
+    # a frame modulus given as an (nv, 1, 1) array yields (nv, nf, nth), equal to
+    # evaluating one stack per value
+    e = np.array([1e5, 2e5, 4e5])
+    kw = {**FOAM, "youngs_modulus": e[:, None, None]}
+    plate, rubber = nb.Plate.from_material(1.6e-3, **ALU), nb.Solid(3e-3, 1200.0, 5e6, 0.49)
+    f, th = np.array([100.0, 1000.0, 5000.0]), np.radians([0.0, 45.0])
+    tau = nb.Stack([plate, nb.Porous("biot", 0.05, **kw), nb.AirGap(0.01), rubber]
+                   ).transmission_coefficient(f, th)
+    assert tau.shape == (3, 3, 2)
+    for i, ei in enumerate(e):
+        one = nb.Stack([plate, nb.Porous("biot", 0.05, **{**FOAM, "youngs_modulus": ei}),
+                        nb.AirGap(0.01), rubber])
+        np.testing.assert_allclose(tau[i], one.transmission_coefficient(f, th), rtol=1e-12)

@@ -62,10 +62,11 @@ def biot_element(omega, rho_eq, k_eq, porosity, frame_density, youngs_modulus,
     kf = phi * k_eq
     n, p_hat = frame_modulus(youngs_modulus, poisson_ratio, loss_factor)
     p = p_hat + (1 - phi) ** 2 * kf / phi
-    shape = np.shape(omega)
-    full = [np.broadcast_to(np.asarray(x, dtype=complex), shape)
-            for x in (p, (1 - phi) * kf, phi * kf, n, rho11, rho12, rho22)]
-    return BiotElement(*full, porosity=phi, thickness=thickness)
+    # one common shape: omega's, or larger where parameters carry a leading variant axis
+    full = np.broadcast_arrays(*[np.asarray(x, dtype=complex) for x in
+                                 (p, (1 - phi) * kf, phi * kf, n, rho11, rho12, rho22,
+                                  np.zeros(np.shape(omega)))])
+    return BiotElement(*full[:7], porosity=phi, thickness=thickness)
 
 
 def compressional_waves(el: BiotElement, omega):
