@@ -3,7 +3,7 @@
 Time convention ``exp(+j omega t)``. Every medium carries the state vector of its kind
 (fluid 2, elastic solid 4, Biot 6; :mod:`noisebudget.wavebasis`); the media meet at
 interfaces whose conditions are linear relations between the states on either side
-(Allard & Atalla, Propagation of Sound in Porous Media, 2nd ed. 2009, sec. 11.4; the
+(Allard & Atalla, Propagation of Sound in Porous Media, 2nd ed. 2009, ch. 11; the
 porous conditions after Deresiewicz & Skalak, Bull. Seismol. Soc. Am. 53 (1963) 783):
 
 ========  ==================================================================
@@ -19,7 +19,7 @@ Biot |    ``v_x^s, v_z^s``, relative flux ``phi (v_z^f - v_z^s)``, total normal 
 ========  ==================================================================
 
 An unbonded contact between two framed media (``bonding = "unbonded"``) is a film of
-air of no thickness between them (Allard & Atalla 2009, sec. 11.4): both faces carry the
+air of no thickness between them (Allard & Atalla 2009, ch. 11): both faces carry the
 film's pressure and no shear. Sheets are interface relations: between two fluids the
 series impedance ``p1 - p2 = Z v``; a plate or septum bonded to a framed medium is an
 impervious sheet moving with normal velocity ``w`` and in-plane velocity ``u`` (Kirchhoff
@@ -30,7 +30,7 @@ plate; faces at ``-+h/2`` move in-plane with ``u -+ j kt (h/2) w``)::
 
 with ``Z`` the sheet's impedance and ``C = E h / (1 - nu^2) = 12 D / h^2`` its membrane
 stiffness (derived from the plate's resultant equations, Cremer, Heckl & Petersson,
-Structure-Borne Sound; Allard & Atalla 2009, sec. 11.6). Other sheets (screens, tiles)
+Structure-Borne Sound; Allard & Atalla 2009, ch. 11). Other sheets (screens, tiles)
 touch framed media through an air film.
 
 Stable solve (recursive reflection matrices; Kennett, Seismic Wave Propagation in

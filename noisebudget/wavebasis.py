@@ -142,7 +142,7 @@ def solid_medium(el, omega, kt, zref) -> Medium:
     ``kL^2 = omega^2 rho / (lambda + 2 mu)``, ``kT^2 = omega^2 rho / mu``; compressional
     stress ``sigma_zz = -j (lambda kL^2 + 2 mu kz^2)``, ``sigma_xz = -2 j mu kt kz``;
     shear ``sigma_zz = 2 j mu kt kz``, ``sigma_xz = -j mu (kz^2 - kt^2)`` per unit
-    displacement potential (Allard & Atalla 2009, sec. 11.3).
+    displacement potential (Allard & Atalla 2009, ch. 11).
     """
     lam, mu = el.lame_lambda, el.lame_mu
     kl2 = omega**2 * el.density / (lam + 2 * mu)
@@ -165,7 +165,7 @@ def biot_medium(el, omega, kt, zref) -> Medium:
 
     Two compressional waves ``delta_1,2`` with fluid/frame ratios ``mu_1,2`` and a shear
     wave ``delta_3^2 = omega^2 (rho11 rho22 - rho12^2) / (N rho22)``,
-    ``mu_3 = -rho12 / rho22`` (Allard & Atalla 2009, eqs. 6.69-6.83). For a compressional
+    ``mu_3 = -rho12 / rho22`` (Allard & Atalla 2009, ch. 6). For a compressional
     wave the frame stress is ``sigma_zz^s = -j [(P - 2N + Q mu) delta^2 + 2 N kz^2]`` and
     the fluid stress ``sigma_zz^f = -j (Q + R mu) delta^2``; the shear wave leaves the
     fluid stress zero.

@@ -26,8 +26,8 @@ def biot(thickness, **kw):
 def test_wavenumbers_solve_biot_equations():
     # Independent route: delta^2 are the eigenvalues of K^-1 M with K = [[P, Q], [Q, R]]
     # and M = omega^2 [[rho11, rho12], [rho12, rho22]] (Biot's equations for
-    # compressional waves, Allard & Atalla 2009 eq. 6.64), the shear wave
-    # delta3^2 = omega^2 (rho11 - rho12^2 / rho22) / N (eq. 6.83); computed from them
+    # compressional waves, Allard & Atalla 2009, ch. 6), the shear wave
+    # delta3^2 = omega^2 (rho11 - rho12^2 / rho22) / N (same chapter); computed from them
     f = np.array([50.0, 300.0, 1000.0, 4000.0, 20000.0])
     w = 2 * np.pi * f
     el = biot(0.05).element(w, 0 * w, nb.Air())
@@ -51,7 +51,7 @@ def test_wavenumbers_decouple_for_a_stiff_heavy_frame():
     # With a frame far stiffer and heavier than the air, one compressional wave is the
     # rigid-frame JCA wave omega sqrt(rho_eq / K_eq) and the other the frame's own wave
     # omega sqrt(rho1 / P_hat); the shear wave omega sqrt(rho1 / N) (Allard & Atalla 2009,
-    # sec. 6.5: weak coupling)
+    # ch. 6: weakly coupled waves)
     layer = biot(0.05, youngs_modulus=1e9, bulk_density=2000.0, loss_factor=0.02)
     f = np.array([100.0, 1000.0, 10000.0])
     w = 2 * np.pi * f
@@ -123,7 +123,7 @@ def test_biot_layer_between_equal_fluids_is_reciprocal_and_passive(d, e, rho1, n
 
 def _naive_hard_backed_impedance(el, omega, thickness, dps=None):
     """Normal surface impedance of a hard-backed Biot layer by the plain transfer matrix
-    ``T = Gamma(0) Gamma(d)^-1`` (Allard & Atalla 2009, sec. 11.3), which holds
+    ``T = Gamma(0) Gamma(d)^-1`` (Allard & Atalla 2009, ch. 11), which holds
     exp(+j delta d): in double precision it overflows for thick layers at high frequency;
     with mpmath at ``dps`` digits it is exact. Written here from Biot's equations, apart
     from the library's assembly."""
@@ -194,7 +194,7 @@ def test_quarter_wave_frame_resonance_of_hard_backed_bonded_foam():
     # The frame bonded to a rigid wall resonates where its thickness is a quarter of the
     # frame wavelength, f = c_frame / (4 d), c_frame = sqrt(P_hat / rho1) with
     # P_hat = E (1 - nu) / ((1 + nu)(1 - 2 nu)) the frame's compressional modulus in vacuo
-    # (Allard & Atalla 2009, sec. 6.7 and 11.7): the absorption departs most from the
+    # (Allard & Atalla 2009, ch. 6 and 11): the absorption departs most from the
     # rigid-frame value there
     e, rho1, d = 4e5, 30.0, 0.05
     fr = np.sqrt(e * 0.7 / (1.3 * 0.4) / rho1) / (4 * d)

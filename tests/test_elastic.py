@@ -105,7 +105,7 @@ def test_plate_bonded_to_foam_matches_thin_solid_bonded_to_foam():
 
 def test_unbonded_contact_is_an_air_film():
     # bonding = "unbonded" is a film of air of no thickness (Allard & Atalla 2009,
-    # sec. 11.4); a 1 um air gap gives the same within 0.01 dB, and bonding differs
+    # ch. 11); a 1 um air gap gives the same within 0.01 dB, and bonding differs
     plate, foam = nb.Plate.from_material(1.6e-3, **ALU), nb.Porous("biot", 0.05, **FOAM)
     f = np.array([100.0, 500.0, 2000.0, 8000.0])
     th = np.radians([0.0, 45.0, 70.0])

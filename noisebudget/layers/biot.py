@@ -23,7 +23,7 @@ def frame_modulus(youngs_modulus, poisson_ratio, loss_factor=0.0):
 
     ``N = E (1 + j eta) / (2 (1 + nu))``, ``K_b = 2 N (1 + nu) / (3 (1 - 2 nu))``;
     ``P_hat = E (1 + j eta) (1 - nu) / ((1 + nu) (1 - 2 nu))`` is the modulus of a
-    compressional wave in the frame alone (Allard & Atalla 2009, eqs. 6.28-6.30).
+    compressional wave in the frame alone (Allard & Atalla 2009, ch. 6).
     """
     n = youngs_modulus * (1 + 1j * loss_factor) / (2 * (1 + poisson_ratio))
     kb = 2 * n * (1 + poisson_ratio) / (3 * (1 - 2 * poisson_ratio))
@@ -47,12 +47,12 @@ def biot_element(omega, rho_eq, k_eq, porosity, frame_density, youngs_modulus,
     Notes
     -----
     With ``alpha(omega) = phi rho_eq / rho0`` the dynamic tortuosity (Allard & Atalla
-    2009, eqs. 6.56-6.58 in JCA form)::
+    2009, ch. 6, in JCA form)::
 
         rho12 = -phi rho0 (alpha - 1),  rho11 = rho1 - rho12,  rho22 = phi rho0 - rho12
         P = P_hat + (1 - phi)^2 K_f / phi,  Q = (1 - phi) K_f,  R = phi K_f
 
-    with ``K_f = phi k_eq`` the bulk modulus of the pore air (eqs. 6.28-6.30, frame
+    with ``K_f = phi k_eq`` the bulk modulus of the pore air (ch. 6, frame
     material incompressible).
     """
     phi, rho0 = porosity, air.density
@@ -75,9 +75,9 @@ def compressional_waves(el: BiotElement, omega):
 
     ``(PR - Q^2) s^2 - omega^2 (P rho22 + R rho11 - 2 Q rho12) s
     + omega^4 (rho11 rho22 - rho12^2) = 0`` with ``s = delta^2`` (Allard & Atalla 2009,
-    eq. 6.69), solved without cancellation: ``PR - Q^2 = phi K_f P_hat`` is formed
+    ch. 6), solved without cancellation: ``PR - Q^2 = phi K_f P_hat`` is formed
     directly and the smaller root from the product of the roots.
-    ``mu = (P delta^2 - omega^2 rho11) / (omega^2 rho12 - Q delta^2)`` (eq. 6.71), or the
+    ``mu = (P delta^2 - omega^2 rho11) / (omega^2 rho12 - Q delta^2)`` (ch. 6), or the
     equivalent form from the fluid's equation, whichever has the larger denominator.
     """
     p, q, r = el.p, el.q, el.r
@@ -108,7 +108,7 @@ def biot_wavenumbers(el: BiotElement, omega):
     Compressional waves from :func:`compressional_waves`, ordered by phase speed (the
     fast wave has the smaller real wavenumber); shear wave
     ``delta3^2 = (omega^2 / N) (rho11 rho22 - rho12^2) / rho22`` (Allard & Atalla 2009,
-    eq. 6.83). Roots are taken with negative imaginary parts (decaying waves).
+    ch. 6). Roots are taken with negative imaginary parts (decaying waves).
     """
     s, _ = compressional_waves(el, omega)
     d = np.sqrt(s)

@@ -87,7 +87,7 @@ class Solid(Layer):
     -----
     Exact plane-strain elastodynamics: a compressional wave ``kL^2 = omega^2 rho /
     (lambda + 2 mu)`` and a shear wave ``kT^2 = omega^2 rho / mu`` in each direction, state
-    vector ``(v_x, v_z, sigma_zz, sigma_xz)`` (Allard & Atalla 2009, sec. 11.3; Brekhovskikh,
+    vector ``(v_x, v_z, sigma_zz, sigma_xz)`` (Allard & Atalla 2009, ch. 11; Brekhovskikh,
     Waves in Layered Media). Unlike the ``plate`` sheet it includes shear, rotary inertia
     and thickness resonances, so a thin solid tends to the Kirchhoff plate (mass law and
     coincidence) and a thick one shows its standing waves. At normal incidence only the
