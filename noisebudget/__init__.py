@@ -5,7 +5,7 @@ Time convention ``exp(+j omega t)`` throughout; SI units inside the library.
 
 from .bands import a_weighting, c_weighting, octave_bands, third_octave_bands
 from .errors import InputError, InputErrors, ModelRangeWarning
-from .layers import AirGap, Plate, Porous, Screen, Septum
+from .layers import AirGap, Plate, Porous, Screen, Septum, Solid
 from .media import Air, standard_atmosphere
 from .ratings import ratings
 from .stack import Stack
@@ -24,5 +24,5 @@ def __getattr__(name):
 
 __all__ = ["a_weighting", "c_weighting", "octave_bands", "ratings", "third_octave_bands",
            "Air", "AirGap", "InputError", "InputErrors", "ModelRangeWarning", "Plate",
-           "Porous", "Screen", "Septum", "Stack", "__version__", "load_stack", "load_study",
-           "run_study", "parse_stack", "parse_study", "standard_atmosphere"]
+           "Porous", "Screen", "Septum", "Solid", "Stack", "__version__", "load_stack",
+           "load_study", "run_study", "parse_stack", "parse_study", "standard_atmosphere"]

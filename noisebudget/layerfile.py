@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 
 from .layers import LAYER_TYPES, Layer, LayerValueError
 from .layers.base import Field
+from .multilayer import BONDING
 from .schema import INVALID, Reader, join, read_table, suggest
 
 __all__ = ["LAYER_META", "LayerEntry", "build_layer", "layer_schema"]
@@ -25,6 +26,11 @@ LAYER_META: dict[str, Field] = {
     "description": Field("text", doc="one line describing the layer"),
     "source": Field("text", doc="where the values come from (a published source, "
                                 "\"common practice\", \"from memory\" or \"demo value\")"),
+    "bonding": Field("choice", choices=BONDING,
+                     doc="contact with the previous layer where an elastic layer (solid, "
+                         "Biot) takes part: \"bonded\" (default) or \"unbonded\" (a thin "
+                         "air film); on a `{ stack = ... }` entry it applies to the first "
+                         "layer inserted"),
 }
 
 

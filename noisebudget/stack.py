@@ -22,6 +22,7 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from . import multilayer
 from .bands import Bands, band_average
 from .incidence import INCIDENCE, default_theta_max_deg, paris_average
 from .layers.base import FluidElement, Layer, SheetElement
@@ -107,6 +108,9 @@ class Stack:
         vented to the cabin).
     labels : tuple of str
         A display name per layer.
+    bonding : tuple of str
+        Per layer, ``"bonded"`` (default) or ``"unbonded"`` to the previous layer; it
+        matters where elastic layers (solid, Biot) meet, see :mod:`noisebudget.multilayer`.
     """
 
     layers: tuple = ()
@@ -114,6 +118,7 @@ class Stack:
     receiver_air: Air | None = None
     cavity_air: Air | None = None
     labels: tuple = ()
+    bonding: tuple = ()
 
     def __post_init__(self):
         object.__setattr__(self, "layers", tuple(self.layers))
@@ -127,6 +132,13 @@ class Stack:
         for layer in self.layers:
             if not isinstance(layer, Layer):
                 raise TypeError(f"not a layer: {layer!r}")
+        bonding = tuple(self.bonding) + ("bonded",) * (len(self.layers) - len(self.bonding))
+        object.__setattr__(self, "bonding", bonding[:len(self.layers)])
+        for b in self.bonding:
+            if b not in multilayer.BONDING:
+                raise ValueError(f"bonding must be one of {multilayer.BONDING}, got {b!r}")
+        # elastic layers (solid, Biot) need the general solve; the rest the 2x2 cascade
+        object.__setattr__(self, "_general", multilayer.needs_general_solve(self.layers))
 
     @property
     def areal_mass(self) -> float:
@@ -140,8 +152,10 @@ class Stack:
 
     def reversed(self) -> Stack:
         """The same layers seen from the other side, the two airs swapped."""
+        bonding = self.bonding[:1] + self.bonding[1:][::-1]  # each contact keeps its kind
         return replace(self, layers=self.layers[::-1], labels=self.labels[::-1],
-                       source_air=self.receiver_air, receiver_air=self.source_air)
+                       source_air=self.receiver_air, receiver_air=self.source_air,
+                       bonding=bonding)
 
     def _matrices(self, omega, theta):
         """The cascade ``(a, b, c, d, log_scale)`` and the receiving air's normal
@@ -160,6 +174,8 @@ class Stack:
 
     def _tau(self, omega, theta):
         """tau for omega (nf, 1) and source-side angles theta (nf, nth) or (1, nth)."""
+        if self._general:
+            return multilayer.solve_angles(self, omega, theta).tau
         (a, b, c, d, log_scale), kz2 = self._matrices(omega, theta)
         y1 = np.cos(theta) / self.source_air.impedance
         y2 = kz2 / (omega * self.receiver_air.density)
@@ -247,6 +263,10 @@ class Stack:
         """Normal surface impedance for omega (nf, 1) and angles theta (nf or 1, nth)."""
         if backing not in ("rigid", "receiver"):
             raise ValueError("backing must be 'rigid' or 'receiver'")
+        if self._general:
+            r = multilayer.solve_angles(self, omega, theta, backing).reflection
+            with np.errstate(divide="ignore", invalid="ignore"):
+                return (1 + r) / (1 - r) * self.source_air.impedance / np.cos(theta)
         (a, b, c, d, _), kz2 = self._matrices(omega, theta)
         if backing == "rigid":
             return a / c

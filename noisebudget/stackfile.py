@@ -29,7 +29,7 @@ from .media import Air, standard_atmosphere
 from .schema import INVALID, Reader, join, read_table, read_toml
 from .stack import Stack
 
-__all__ = ["AIR_STATE", "INCLUDE_ENTRY", "STACK_FILE", "air_from", "include_stack",
+__all__ = ["AIR_STATE", "INCLUDE_ENTRY", "STACK_FILE", "air_from", "bonding_of", "include_stack",
            "load_stack", "parse_stack", "read_layers", "read_toml"]
 
 AIR_STATE: dict[str, Field] = {
@@ -123,8 +123,12 @@ def _layer_entry(entry: dict, where: str, reader: Reader):
             return INVALID
         meta = {k: v for k, v in values.items() if k in LAYER_META}
         label = meta.pop("name", None)
-        return [LayerEntry(e.layer, f"{label}: {e.label}" if label else e.label,
-                           {**e.meta, **meta}) for e in got]
+        first = meta.pop("bonding", None)  # the contact of the first inserted layer only
+        out = [LayerEntry(e.layer, f"{label}: {e.label}" if label else e.label,
+                          {**e.meta, **meta}) for e in got]
+        if first is not None:
+            out[0] = LayerEntry(out[0].layer, out[0].label, {**out[0].meta, "bonding": first})
+        return out
     table = dict(entry)
     label = None
     if "use" in table:
@@ -196,7 +200,12 @@ def stack_from(values, entries, default_air: Air | None = None) -> Stack:
     rcv = air_from(values.get("receiver_air"), src)
     cav = air_from(values.get("cavity_air"), rcv)
     return Stack(tuple(e.layer for e in entries), src, rcv, cav,
-                 tuple(e.label for e in entries))
+                 tuple(e.label for e in entries), bonding_of(entries))
+
+
+def bonding_of(entries) -> tuple:
+    """Each layer entry's contact with the previous layer (default ``"bonded"``)."""
+    return tuple(e.meta.get("bonding") or "bonded" for e in entries)
 
 
 def parse_stack(data: dict, file: str = "", where: str = "", catalog=None) -> Stack:

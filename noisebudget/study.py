@@ -19,7 +19,7 @@ from .catalog import load_catalog
 from .layers.base import Field
 from .media import Air
 from .schema import INVALID, Reader, join, read_table, read_toml, suggest
-from .stackfile import AIR_STATE, air_from, include_stack, read_layers
+from .stackfile import AIR_STATE, air_from, bonding_of, include_stack, read_layers
 
 __all__ = ["AIR_SECTION", "CABIN", "CONDITION", "LoadedStudy", "PACKAGE", "PACKAGE_ZONE",
            "STUDY_FILE", "STUDY_SECTION", "TARGETS", "TARGET_METRICS", "TONE", "ZONE",
@@ -260,7 +260,8 @@ def _packages(entries, zone_names, zones, airs, reader, package_names):
                 continue
             failed.discard(zname)
             stacks[zname] = Stack(tuple(e.layer for e in entries_z), airs[0], airs[1],
-                                  airs[1], tuple(e.label for e in entries_z))
+                                  airs[1], tuple(e.label for e in entries_z),
+                                  bonding_of(entries_z))
         for z in zone_names:
             if z not in stacks and z not in failed:
                 reader.problem(join(join(where, "zone"), z),

@@ -1,4 +1,4 @@
-"""Porous layers as equivalent fluids: Delany-Bazley, Miki, JCA rigid and JCA limp.
+"""Porous layers: equivalent fluids (Delany-Bazley, Miki, JCA rigid and limp) and Biot.
 
 Time convention ``exp(+j omega t)``: the wavenumbers have negative imaginary parts.
 Each model gives an effective density rho and bulk modulus K of the equivalent fluid;
@@ -15,13 +15,15 @@ import numpy as np
 
 from ..errors import ModelRangeWarning
 from .base import Field, FluidElement, Layer, LayerValueError
+from .biot import biot_element, frame_modulus
 
 __all__ = ["MODELS", "Porous", "delany_bazley", "jca_bulk_modulus", "jca_density",
            "limp_density", "miki"]
 
-MODELS = ("delany-bazley", "miki", "jca", "jca-limp")
+MODELS = ("delany-bazley", "miki", "jca", "jca-limp", "biot")
 _JCA = ("porosity", "tortuosity", "viscous_length", "thermal_length")
-NEEDS = {"jca": _JCA, "jca-limp": (*_JCA, "bulk_density")}  # keys each model requires
+NEEDS = {"jca": _JCA, "jca-limp": (*_JCA, "bulk_density"),  # keys each model requires
+         "biot": (*_JCA, "bulk_density", "youngs_modulus", "poisson_ratio", "loss_factor")}
 
 
 def delany_bazley(f, flow_resistivity, rho0, c0):
@@ -108,7 +110,9 @@ class Porous(Layer):
     ----------
     model : str
         ``"delany-bazley"``, ``"miki"`` (empirical, sigma only), ``"jca"`` (rigid
-        frame) or ``"jca-limp"`` (limp frame, needs ``bulk_density``).
+        frame), ``"jca-limp"`` (limp frame, needs ``bulk_density``) or ``"biot"``
+        (elastic frame: JCA pore air plus the frame's density, Young's modulus, Poisson
+        ratio and loss factor; see :mod:`noisebudget.layers.biot`).
     layer_thickness : float
         m.
     flow_resistivity : float
@@ -117,11 +121,15 @@ class Porous(Layer):
         phi, alpha_inf, Lambda (m), Lambda' (m) for the JCA models.
     bulk_density : float
         Frame density rho_1 in kg/m^3 (areal mass; the limp model's inertia).
+    youngs_modulus, poisson_ratio, loss_factor : float
+        The frame's E (Pa, in vacuo), nu and eta, for ``"biot"``.
 
     Notes
     -----
-    The frame's elasticity is neglected (no Biot frame wave): good for light blankets
-    behind a skin, not for stiff foams bonded to a panel. The empirical models warn
+    Except in ``"biot"``, the frame's elasticity is neglected (no frame wave): good for
+    light blankets behind a skin, not for stiff foams bonded to a panel. A ``"biot"`` layer
+    is solved with its three waves (fast, slow, shear) by :mod:`noisebudget.multilayer`,
+    bonded or not to its neighbours. The empirical models warn
     (``ModelRangeWarning``) outside 0.01 < X < 1.
     """
 
@@ -133,6 +141,9 @@ class Porous(Layer):
     viscous_length: float | None = None
     thermal_length: float | None = None
     bulk_density: float | None = None
+    youngs_modulus: float | None = None
+    poisson_ratio: float | None = None
+    loss_factor: float | None = None
     type_name = "porous"
 
     def __post_init__(self):
@@ -148,6 +159,14 @@ class Porous(Layer):
             raise LayerValueError("porosity", f"must lie in (0, 1], got {self.porosity}")
         if self.tortuosity is not None and self.tortuosity < 1:
             raise LayerValueError("tortuosity", f"must be >= 1, got {self.tortuosity}")
+        if self.poisson_ratio is not None and not 0 <= self.poisson_ratio < 0.5:
+            raise LayerValueError("poisson_ratio", f"must lie in [0, 0.5), got "
+                                                   f"{self.poisson_ratio}")
+
+    @property
+    def elastic(self) -> bool:
+        """True for the Biot model: the stack needs the general (elastic) solve."""
+        return self.model == "biot"
 
     @property
     def thickness(self):
@@ -158,7 +177,8 @@ class Porous(Layer):
         return (self.bulk_density or 0.0) * self.layer_thickness
 
     def equivalent_fluid(self, omega, air):
-        """Effective density and bulk modulus (complex arrays shaped like omega)."""
+        """Effective density and bulk modulus (complex arrays shaped like omega); for
+        ``"biot"`` those of the pore air with the frame held rigid (JCA)."""
         omega = np.asarray(omega, dtype=float)
         rho0, c0 = air.density, air.sound_speed
         f = omega / (2 * np.pi)
@@ -181,8 +201,23 @@ class Porous(Layer):
         return rho, jca_bulk_modulus(omega, self.porosity, self.thermal_length, air)
 
     def element(self, omega, kt, air):
+        if self.model == "biot":
+            rho, k = self.equivalent_fluid(omega, air)  # the rigid-frame JCA pore air
+            return biot_element(np.asarray(omega, dtype=float), rho, k, self.porosity,
+                                self.bulk_density, self.youngs_modulus, self.poisson_ratio,
+                                self.loss_factor, self.layer_thickness, air)
         rho, k = self.equivalent_fluid(omega, air)
         return FluidElement(rho, k, self.layer_thickness)
+
+    def trace_resonances(self, omega):
+        """Biot model: the frame's compressional and shear wavenumbers in vacuo (nf, 2),
+        the critical angles of the frame waves."""
+        if self.model != "biot":
+            return None
+        n, p_hat = frame_modulus(self.youngs_modulus, self.poisson_ratio)
+        omega = np.asarray(omega, dtype=float)
+        return np.concatenate([omega * np.sqrt(self.bulk_density / p_hat.real),
+                               omega * np.sqrt(self.bulk_density / n.real)], axis=-1)
 
     @classmethod
     def required_by(cls, table):
@@ -195,7 +230,10 @@ class Porous(Layer):
                    porosity=values.get("porosity"), tortuosity=values.get("tortuosity"),
                    viscous_length=values.get("viscous_length"),
                    thermal_length=values.get("thermal_length"),
-                   bulk_density=values.get("bulk_density"))
+                   bulk_density=values.get("bulk_density"),
+                   youngs_modulus=values.get("youngs_modulus"),
+                   poisson_ratio=values.get("poisson_ratio"),
+                   loss_factor=values.get("loss_factor"))
 
 
 Porous.schema = {
@@ -207,5 +245,10 @@ Porous.schema = {
     "tortuosity": Field("number", ge=1.0, le=20.0, doc="tortuosity alpha_inf (jca, jca-limp)"),
     "viscous_length": Field("length", doc="viscous characteristic length Lambda"),
     "thermal_length": Field("length", doc="thermal characteristic length Lambda'"),
-    "bulk_density": Field("density", doc="bulk density of the frame (mass; jca-limp)"),
+    "bulk_density": Field("density", doc="bulk density of the frame (mass; jca-limp, biot)"),
+    "youngs_modulus": Field("modulus", doc="Young's modulus of the frame in vacuo (biot)"),
+    "poisson_ratio": Field("number", allow_zero=True, lt=0.5,
+                           doc="Poisson's ratio of the frame (biot)"),
+    "loss_factor": Field("number", allow_zero=True, le=2.0,
+                         doc="structural loss factor of the frame (biot)"),
 }
