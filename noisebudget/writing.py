@@ -199,9 +199,11 @@ def neutralise_formula(text):
 def csv_text(table, float_format: str = "%.3f") -> str:
     """A DataFrame as CSV; text cells are neutralised (:func:`neutralise_formula`),
     numbers stay numbers and missing values are empty."""
+    from pandas.api.types import is_numeric_dtype
+
     out = table.copy()
     for col in out.columns:
-        if out[col].dtype == object:
+        if not is_numeric_dtype(out[col]):  # object or string columns hold user text
             out[col] = out[col].map(neutralise_formula)
     out.columns = [neutralise_formula(str(c)) for c in out.columns]
     return out.to_csv(index=False, float_format=float_format)
