@@ -16,7 +16,7 @@ __all__ = ["ArgumentError", "MAX_ANGLE_POINTS", "MAX_FREQUENCIES", "MAX_FREQUENC
 
 MIN_FREQUENCY_HZ = 1e-3
 MAX_FREQUENCY_HZ = 1e5
-MAX_FREQUENCIES = 200_000      # about 100 s of field-incidence TL for a five-layer stack
+MAX_FREQUENCIES = 1_000_000    # about 8 min of field-incidence TL for a five-layer stack
 MAX_PER_OCTAVE = 1000
 MAX_ANGLE_POINTS = 20_000_000  # frequencies x angles of one tau array (320 MB)
 
