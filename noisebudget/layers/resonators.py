@@ -93,10 +93,15 @@ __all__ = ["Cell", "Tile"]
 
 SERIES_LIMIT = 2.0   # |k a| at or below which the power series are used
 _N = 18              # series terms: (|ka| / 2)^(2n) / (n!)^2 < 1e-30 at n = 18
-_n = np.arange(_N)
-_FACT2 = np.array([float(factorial(int(i))) ** 2 for i in _n])          # (n!)^2
-_HARM = np.concatenate([[0.0], np.cumsum(1.0 / np.arange(1, _N))])       # H_n
-_SIGN = (-1.0) ** _n
+_n = np.arange(_N, dtype=float)
+_T = (-1.0) ** _n / np.array([float(factorial(i)) ** 2 for i in range(_N)])  # (-1)^n/(n!)^2
+_HARM = np.concatenate([[0.0], np.cumsum(1.0 / np.arange(1, _N))])         # H_n
+_W = 2 * _n + 2
+# columns: J0, H-sum, (1-J0)/k^2 / (r^2/4), and their r-derivatives and integrals (see
+# _series); one matrix product evaluates all nine sums
+_COEF = np.stack([_T, -_T * _HARM, _T / (_n + 1) ** 2,
+                  _T * _n, _T * _n * _HARM, _T / (_n + 1),
+                  _T / _W, -_T / _W * (1 / _W + _HARM), _T / (_n + 1) ** 2 / (_W + 2)], axis=1)
 
 
 def _series(k, r, a):
@@ -107,24 +112,35 @@ def _series(k, r, a):
     ``up = (1 - J0(kr)) / k^2``, ``s = (kr/2)^2``. Integrals of ``u2`` are taken from 0
     (the log term is integrable). ``r`` > 0 broadcasts against ``k``.
     """
+    k, r = np.broadcast_arrays(np.asarray(k, complex), np.asarray(r, float))
     s = (k * r / 2) ** 2
-    p = s[..., None] ** _n                       # s^n
-    t = _SIGN * p / _FACT2                       # (-s)^n / (n!)^2
+    p = np.empty(s.shape + (_N,), complex)
+    p[..., 0] = 1.0
+    p[..., 1] = s
+    for i in range(2, _N):  # powers s^n: a loop over series terms, not frequencies
+        p[..., i] = p[..., i - 1] * s
+    sums = p.real @ _COEF + 1j * (p.imag @ _COEF)  # real products: no complex BLAS call
+    j0, h, upn, dj, dh, dpn, ij, ihn, ipn = np.moveaxis(sums, -1, 0)
     ln = np.log(r / a)
-    h = -(t * _HARM).sum(-1)                     # sum (-1)^(n+1) H_n s^n / (n!)^2
-    j0 = t.sum(-1)
-    u1, u2 = j0, ln * j0 + h
-    # (1 - J0) / k^2 = (r^2/4) sum_m (-s)^m / ((m+1)!)^2
-    tp = _SIGN * p / (_FACT2 * (_n + 1.0) ** 2)
-    up = r**2 / 4 * tp.sum(-1)
-    d1 = 2 / r * (t * _n).sum(-1)
-    d2 = j0 / r + ln * d1 - 2 / r * (t * _n * _HARM).sum(-1)
-    dp = r / 2 * (_SIGN * p / (_FACT2 * (_n + 1.0))).sum(-1)
-    w = 2.0 * _n + 2.0
-    i1 = r**2 * (t / w).sum(-1)
-    i2 = r**2 * ((t / w) * (np.asarray(ln)[..., None] - 1 / w - _HARM)).sum(-1)
-    ip = r**4 / 4 * (tp / (w + 2.0)).sum(-1)
+    u1, u2, up = j0, ln * j0 + h, r**2 / 4 * upn
+    d1 = 2 / r * dj
+    d2 = j0 / r + ln * d1 - 2 / r * dh
+    dp = r / 2 * dpn
+    i1 = r**2 * ij
+    i2 = r**2 * (ln * ij + ihn)
+    ip = r**4 / 4 * ipn
     return (u1, u2, up), (d1, d2, dp), (i1, i2, ip)
+
+
+def _hankels(z):
+    """Scaled Hankel functions of orders 0 and 1: ``(h1e0, h1e1, h2e0, h2e1)`` at z,
+    using ``H2_v(z) = conj(H1_v(conj z))`` (real order): one call per order."""
+    from scipy import special
+
+    both = np.concatenate([z, np.conj(z)])
+    h0, h1 = special.hankel1e(0, both), special.hankel1e(1, both)
+    n = z.size
+    return h0[:n], h1[:n], np.conj(h0[n:]), np.conj(h1[n:])
 
 
 def _cross(m, n, x, y):
@@ -253,8 +269,16 @@ class Cell:
         if high.any():
             kh = k[high]
             x, yh = kh * r0, kh * a
-            e = np.exp((kh * (a - r0)).imag)  # e^{Im d} <= 1
-            c00, c10, c01 = _cross(0, 0, x, yh), _cross(1, 0, x, yh), _cross(0, 1, x, yh)
+            d = yh - x
+            e = np.exp(d.imag)  # e^{Im d} <= 1
+            # C_mn(x, y) e^{Im d}, as in _cross, from eight scaled Hankel values
+            a0x, a1x, b0x, b1x = _hankels(x)
+            a0y, a1y, b0y, b1y = _hankels(yh)
+            small = np.exp(-2j * d)
+            pre2j = np.exp(1j * d.real) / 2j
+            c00 = pre2j * (b0x * a0y - a0x * b0y * small)
+            c10 = pre2j * (b1x * a0y - a1x * b0y * small)
+            c01 = pre2j * (b0x * a1y - a0x * b1y * small)
             w = 2 * e / (np.pi * kh**2)
             dph = -kh * c10 / c00
             iph = (w - r0 / kh * c10) / c00
