@@ -96,6 +96,14 @@ def cmd_tl(args) -> int:
     theta_max = args.theta_max
     if theta_max is not None and not 0 < theta_max <= 90:
         raise UsageError(f"--theta-max: {theta_max:g} deg: must lie in (0, 90]")
+    bands = None
+    if args.bands:
+        b = 3 if args.bands == "third" else 1
+        lo, hi = (args.fmin, args.fmax) if not args.frequencies else (f.min(), f.max())
+        bands = bands_between(lo, hi, b)
+        if len(bands) == 0:
+            raise UsageError(f"--bands {args.bands}: no band centre between {lo:g} and "
+                             f"{hi:g} Hz")
     stack = load_stack(args.stack)
     if theta_max is None:
         theta_max = default_theta_max_deg(args.incidence)
@@ -106,14 +114,11 @@ def cmd_tl(args) -> int:
            "areal_mass_kg_m2": round(stack.areal_mass, 4), "incidence": args.incidence,
            "theta_max_deg": float(theta_max)}
     notes = []
-    if args.bands:
-        b = 3 if args.bands == "third" else 1
-        lo, hi = (args.fmin, args.fmax) if not args.frequencies else (f.min(), f.max())
-        bands = bands_between(lo, hi, b)
+    if bands is not None:
         btl = stack.band_transmission_loss(bands, args.incidence, theta_max or None)
         out["bands"] = {"nominal_hz": [float(v) for v in bands.nominal],
                         "tl_db": [round(float(v), 2) for v in btl]}
-        if b == 3:
+        if bands.b == 3:
             r = ratings(bands.nominal, btl)
             out["ratings"] = dict(r)
             if r.unavailable:

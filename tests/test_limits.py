@@ -44,6 +44,8 @@ def one_line(capsys):
     (["--theta-max", "0"], "--theta-max: 0 deg: must lie in (0, 90]"),
     (["--theta-max", "nan"], "--theta-max: nan deg"),
     (["--theta-max", "91"], "--theta-max: 91 deg"),
+    (["--fmin", "100", "--fmax", "105", "--bands", "octave"],
+     "--bands octave: no band centre between 100 and 105 Hz"),
 ])
 def test_tl_grid_options_refused_with_one_line(capsys, options, words):
     assert main(["tl", STACK, *options]) == 2
