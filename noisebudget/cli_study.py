@@ -5,7 +5,7 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-__all__ = ["register", "write_outputs"]
+__all__ = ["KINDS", "output_names", "register", "write_outputs"]
 
 
 def register(sub):
@@ -24,24 +24,59 @@ def register(sub):
     d.set_defaults(func=cmd_demo)
 
 
-def write_outputs(result, study_path: Path, outdir: Path, force: bool) -> list[Path]:
-    """Write the CSV tables, the PDF and the workbook, each atomically."""
-    from .errors import InputError
-    from .writing import atomic_write_text
+KINDS = ("csv", "pdf", "xlsx")
 
-    outdir.mkdir(parents=True, exist_ok=True)
+
+def output_names(stem: str, kinds=KINDS, tables=None) -> list[str]:
+    """File names of a study's output set: ``<stem>-<table>.csv`` per result table,
+    ``<stem>.pdf`` and ``<stem>.xlsx``, for the chosen ``kinds``. ``tables`` defaults to
+    the tables every study result has."""
+    from .report import report_targets
+
+    if tables is None:
+        from dataclasses import fields
+
+        from .budget import StudyResult
+
+        tables = [f.name for f in fields(StudyResult) if f.name != "inputs"]
+    names = [f"{stem}-{t}.csv" for t in tables] if "csv" in kinds else []
+    return names + report_targets(stem, kinds)
+
+
+def _kinds(kinds) -> tuple:
+    kinds = tuple(dict.fromkeys(kinds))
+    unknown = [k for k in kinds if k not in KINDS]
+    if unknown or not kinds:
+        raise ValueError(f"kinds = {kinds!r}: choose from {', '.join(KINDS)}")
+    return kinds
+
+
+def write_outputs(result, study_path: Path, outdir: Path, force: bool,
+                  kinds=KINDS) -> list[Path]:
+    """Write a study's output set into ``outdir`` as one unit.
+
+    ``kinds`` selects CSV tables, the PDF and the workbook. The set is refused if any of
+    its files exists (unless ``force``); it is written into a temporary folder under a
+    lock on ``outdir`` and moved into place whole; with ``force`` the files of an earlier
+    set that this one does not contain are removed, so the folder never mixes two runs.
+    """
+    from .report import write_reports
+    from .writing import atomic_write_text, check_free, csv_text, folder_lock, staged_set
+
+    kinds = _kinds(kinds)
+    outdir, study_path = Path(outdir), Path(study_path)
     stem = study_path.stem
-    targets = {f"{stem}-{name}.csv": table for name, table in result.tables().items()}
-    from .report import report_targets, write_reports
-
-    existing = [outdir / n for n in [*targets, *report_targets(stem)] if (outdir / n).exists()]
-    if existing and not force:
-        raise InputError(str(existing[0]), "", "exists; use --force to replace the outputs")
-    written = write_reports(result, study_path, outdir, stem)
-    for name, table in targets.items():
-        atomic_write_text(outdir / name, table.to_csv(index=False, float_format="%.3f"))
-        written.append(outdir / name)
-    return written
+    tables = result.tables()
+    every = output_names(stem, KINDS) + output_names(stem, ("csv",), tables)
+    with folder_lock(outdir):
+        check_free(outdir, every, force)
+        with staged_set(outdir, stem, replaces=every) as stage:
+            if "csv" in kinds:
+                for name, table in tables.items():
+                    atomic_write_text(stage / f"{stem}-{name}.csv", csv_text(table))
+            write_reports(result, study_path, stage, stem, kinds)
+            names = sorted(p.name for p in stage.iterdir())
+    return [outdir / n for n in names]
 
 
 def _print_summary(result):
@@ -56,16 +91,26 @@ def _print_summary(result):
 
 
 def cmd_run(args, study=None) -> int:
-    """Run a study and write its outputs."""
+    """Run a study and write its outputs.
+
+    The output folder is locked and checked before any computation: an existing set is
+    refused (unless ``--force``) without computing anything.
+    """
     import time
 
-    from .study import run_study
+    from .writing import check_free, folder_lock
 
     path = Path(study or args.study)
-    t0 = time.perf_counter()
-    result = run_study(path)
-    t1 = time.perf_counter()
-    written = write_outputs(result, path, Path(args.output), args.force)
+    outdir = Path(args.output)
+    kinds = getattr(args, "kinds", None) or KINDS
+    with folder_lock(outdir):
+        check_free(outdir, output_names(path.stem), args.force)
+        from .study import run_study
+
+        t0 = time.perf_counter()
+        result = run_study(path)
+        t1 = time.perf_counter()
+        written = write_outputs(result, path, outdir, args.force, kinds)
     _print_summary(result)
     print(f"\ncomputed in {t1 - t0:.2f} s; wrote {len(written)} files to {args.output}",
           file=sys.stderr)

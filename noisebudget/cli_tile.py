@@ -70,33 +70,70 @@ def _write_new(path: Path, text: str, source: Path, force: bool):
     atomic_write_text(path, text)
 
 
+MAX_MEASURED_POINTS = 100_000
+
+
 def _read_measured(path):
+    """Measured tube TL: a UTF-8 text file with the header ``frequency_hz,tl_db`` and one
+    row per frequency, frequencies increasing, ``#`` comments allowed. Each problem
+    raises one InputError (file, line, reason)."""
     import numpy as np
 
+    from .checks import MAX_FREQUENCY_HZ, MIN_FREQUENCY_HZ
     from .errors import InputError
 
+    where = str(path)
+    p = Path(path)
     try:
-        text = Path(path).read_text(encoding="utf-8")
+        raw = p.read_bytes()
     except FileNotFoundError:
-        raise InputError(str(path), "", "file not found") from None
+        raise InputError(where, "", "file not found") from None
+    except IsADirectoryError:
+        raise InputError(where, "", "is a folder, not a data file") from None
+    except OSError as exc:
+        raise InputError(where, "", f"cannot read ({exc.strerror or exc})") from None
+    if b"\0" in raw[:8192]:
+        raise InputError(where, "", "is a binary file; expected UTF-8 text "
+                                    "'frequency_hz,tl_db' rows")
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = raw[:exc.start].count(b"\n") + 1
+        raise InputError(where, f"line {line}", f"not UTF-8 text (byte 0x{raw[exc.start]:02x}); "
+                                                f"save the file as UTF-8") from None
     numbered = [(n, line) for n, line in enumerate(text.splitlines(), start=1)
                 if line.strip() and not line.lstrip().startswith("#")]  # '#' comments
-    lines = [line for _, line in numbered]
-    if not lines or [h.strip() for h in lines[0].split(",")] != ["frequency_hz", "tl_db"]:
-        raise InputError(str(path), "header", "expected the header 'frequency_hz,tl_db'")
-    rows = []
+    if not numbered:
+        raise InputError(where, "", "is empty; expected the header 'frequency_hz,tl_db' and "
+                                    "measured rows")
+    if [h.strip() for h in numbered[0][1].split(",")] != ["frequency_hz", "tl_db"]:
+        raise InputError(where, f"line {numbered[0][0]}", "expected the header "
+                                                         "'frequency_hz,tl_db'")
+    if len(numbered) - 1 > MAX_MEASURED_POINTS:
+        raise InputError(where, "", f"{len(numbered) - 1} rows; at most "
+                                    f"{MAX_MEASURED_POINTS}")
+    rows, previous = [], None
     for n, line in numbered[1:]:
         try:
             f, tl = (float(v) for v in line.split(","))
         except ValueError:
-            raise InputError(str(path), f"line {n}", f"expected two numbers, got "
-                                                     f"{line!r}") from None
-        if not (f > 0 and np.isfinite(tl)):
-            raise InputError(str(path), f"line {n}", "frequency must be > 0, TL finite")
+            raise InputError(where, f"line {n}", f"expected two numbers, got "
+                                                 f"{line[:60]!r}") from None
+        if not (np.isfinite(f) and np.isfinite(tl)):
+            raise InputError(where, f"line {n}", "frequency and TL must be finite numbers")
+        if not MIN_FREQUENCY_HZ <= f <= MAX_FREQUENCY_HZ:
+            raise InputError(where, f"line {n}", f"frequency {f:g} Hz: must lie in "
+                                                 f"{MIN_FREQUENCY_HZ:g} .. "
+                                                 f"{MAX_FREQUENCY_HZ:g} Hz")
+        if previous is not None and f <= previous:
+            word = "repeats" if f == previous else "is below"
+            raise InputError(where, f"line {n}", f"frequency {f:g} Hz {word} the previous "
+                                                 f"{previous:g} Hz; frequencies must increase")
+        previous = f
         rows.append((f, tl))
     if len(rows) < 5:
-        raise InputError(str(path), "", f"need at least 5 measured points, got {len(rows)}")
-    data = np.array(sorted(rows))
+        raise InputError(where, "", f"need at least 5 measured points, got {len(rows)}")
+    data = np.array(rows)
     return data[:, 0], data[:, 1]
 
 
@@ -104,6 +141,8 @@ def cmd_tile(args) -> int:
     """Analyse, tune or calibrate the tile in a stack file."""
     import numpy as np
 
+    from .checks import MAX_FREQUENCY_HZ, MIN_FREQUENCY_HZ
+    from .cli import check_band, check_number
     from .errors import InputError
     from .stackfile import load_stack
     from .textout import format_table
@@ -111,6 +150,9 @@ def cmd_tile(args) -> int:
     from .units import parse_quantity
 
     path = Path(args.stack)
+    fmin, fmax = check_band(args)
+    if args.profile is not None:
+        check_number(args.profile, "--profile", MIN_FREQUENCY_HZ, MAX_FREQUENCY_HZ)
     stack = load_stack(path)
     _, tile = _the_tile(stack, path)
     air = stack.source_air
@@ -122,6 +164,7 @@ def cmd_tile(args) -> int:
     if args.tune_peak:
         target = parse_quantity(args.tune_peak.replace("Hz", " Hz").replace("  ", " "),
                                 "frequency", "", "--tune-peak")
+        check_number(target, "--tune-peak", MIN_FREQUENCY_HZ, MAX_FREQUENCY_HZ)
         try:
             tile, value = tune_peak(tile, target, args.vary, cell, air)
         except TuningError as exc:
@@ -145,7 +188,7 @@ def cmd_tile(args) -> int:
         print(f"RMS residual {res.rms_db:.2f} dB; first dip off by {res.dip_error_pct:+.2f} %, "
               f"first peak off by {res.peak_error_pct:+.2f} %")
         out_note = f"tile fitted to {Path(args.fit).name}"
-    ext = tile_extrema(tile, args.fmin, args.fmax, air)
+    ext = tile_extrema(tile, fmin, fmax, air)
     m = tile.areal_mass
     print(f"\n{path}: tile, {tile.frame} grid, pitch {tile.pitch * 1e3:g} mm, "
           f"{len(tile.cells)} cell kind(s), areal mass {m:.3f} kg/m^2 (normal incidence)")
@@ -157,8 +200,8 @@ def cmd_tile(args) -> int:
         print(f"\nfirst TL peak {fp:.1f} Hz, {tp:.1f} dB: {gain:+.1f} dB over the mass law of "
               f"{m:.3f} kg/m^2")
     else:
-        print(f"\nno TL peak between {args.fmin:g} and {args.fmax:g} Hz")
-    if args.profile:
+        print(f"\nno TL peak between {fmin:g} and {fmax:g} Hz")
+    if args.profile is not None:
         c = tile.cells[cell]
         r = np.linspace(0, c.radius, 11)
         w = c.displacement_profile(2 * np.pi * args.profile, r)

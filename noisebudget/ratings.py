@@ -1,7 +1,8 @@
 """Single-number ratings: STC, Rw with C and Ctr, OITC, and speech interference levels.
 
 Inputs are one-third-octave (or octave) band values keyed by ISO 266 nominal frequency.
-A rating refuses to run when any band it needs is missing.
+A single rating refuses to run (``RatingError``) when any band it needs is missing;
+:func:`ratings` returns those the bands allow and says why the others are unavailable.
 """
 
 from __future__ import annotations
@@ -10,7 +11,7 @@ import numpy as np
 
 from .bands import a_weighting, third_octave_bands
 
-__all__ = ["RatingError", "oitc", "psil", "ratings", "rw", "sil3", "sil4", "stc"]
+__all__ = ["RatingError", "Ratings", "oitc", "psil", "ratings", "rw", "sil3", "sil4", "stc"]
 
 # ASTM E413: contour relative to its 500 Hz value, 125 .. 4000 Hz (16 bands)
 STC_BANDS = (125, 160, 200, 250, 315, 400, 500, 630, 800, 1000, 1250, 1600, 2000, 2500,
@@ -129,9 +130,35 @@ def sil3(octave_nominal_hz, levels_db) -> float:
     return _octave_mean(octave_nominal_hz, levels_db, (1000, 2000, 4000), "SIL3")
 
 
-def ratings(nominal_hz, tl_db) -> dict:
-    """STC, Rw, C, Ctr and OITC from one-third-octave TL; raises RatingError if bands
-    are missing."""
-    value, c, ctr = rw(nominal_hz, tl_db)
-    return {"stc": stc(nominal_hz, tl_db), "rw": value, "c": c, "ctr": ctr,
-            "oitc": oitc(nominal_hz, tl_db)}
+class Ratings(dict):
+    """STC, Rw, C, Ctr and OITC by name; ``None`` where the bands do not allow one.
+
+    ``unavailable`` maps each missing rating to the reason, e.g.
+    ``{"oitc": "OITC needs one-third-octave bands 80-4000 Hz; missing 80 Hz"}``.
+    """
+
+    def __init__(self, values: dict, unavailable: dict):
+        super().__init__(values)
+        self.unavailable = dict(unavailable)
+
+
+def ratings(nominal_hz, tl_db) -> Ratings:
+    """STC (ASTM E413), Rw with C and Ctr (ISO 717-1) and OITC (ASTM E1332) from
+    one-third-octave TL, each one the bands allow.
+
+    Every key ``stc, rw, c, ctr, oitc`` is present; a rating whose bands are missing (STC
+    needs 125-4000 Hz, Rw 100-3150 Hz, OITC 80-4000 Hz) or not finite is ``None``, and
+    ``result.unavailable`` says why.
+    """
+    values, why = {}, {}
+    for keys, fn in ((("stc",), stc), (("rw", "c", "ctr"), rw), (("oitc",), oitc)):
+        try:
+            got = fn(nominal_hz, tl_db)
+        except RatingError as exc:
+            for k in keys:
+                values[k] = None
+                why[k] = str(exc)
+            continue
+        values.update(zip(keys, got if isinstance(got, tuple) else (got,), strict=True))
+    order = ("stc", "rw", "c", "ctr", "oitc")
+    return Ratings({k: values[k] for k in order}, {k: why[k] for k in order if k in why})

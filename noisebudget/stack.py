@@ -18,12 +18,14 @@ which for equal air on both sides is Allard & Atalla (2009) eq. 11.9x form
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from . import multilayer
+from . import checks, multilayer
 from .bands import Bands, band_average
+from .errors import ModelRangeWarning
 from .incidence import INCIDENCE, default_theta_max_deg, paris_average
 from .layers.base import FluidElement, Layer, SheetElement
 from .media import Air
@@ -31,6 +33,7 @@ from .media import Air
 __all__ = ["Stack", "cascade", "TL_CAP_DB"]
 
 TL_CAP_DB = 300.0  # transmission losses are capped here (tau floor 1e-30)
+_CHUNK = 2048      # frequencies per angle-quadrature call: bounds the working memory
 
 
 def _fluid_matrix(el: FluidElement, omega, kt):
@@ -183,23 +186,31 @@ class Stack:
         with np.errstate(under="ignore"):
             return 4 * y1 * y2.real / np.abs(den) ** 2 * np.exp(-2 * log_scale)
 
+    def _warn_ranges(self, f):
+        """One ``ModelRangeWarning`` per layer used outside its model's range at ``f``."""
+        for i, (layer, label) in enumerate(zip(self.layers, self.labels, strict=True)):
+            note = getattr(layer, "range_note", None)
+            text = note(f, self.cavity_air) if note else None
+            if text:
+                warnings.warn(f"layer[{i + 1}] ({label}): {text}", ModelRangeWarning,
+                              stacklevel=3)
+
     def transmission_coefficient(self, f_hz, theta_rad) -> np.ndarray:
         """Power transmission coefficient tau(f, theta), shape (nf, nth).
 
         Parameters
         ----------
         f_hz : array_like (nf,)
-            Frequencies in Hz, > 0.
+            Frequencies in Hz, 1 mHz .. 100 kHz (:mod:`noisebudget.checks`).
         theta_rad : array_like (nth,)
             Angles of incidence from the normal on the source side, 0 .. pi/2.
         """
-        f = np.atleast_1d(np.asarray(f_hz, dtype=float))
-        th = np.atleast_1d(np.asarray(theta_rad, dtype=float))
-        if np.any(f <= 0):
-            raise ValueError("frequencies must be positive")
-        if np.any((th < 0) | (th > np.pi / 2)):
-            raise ValueError("angles must lie in 0 .. pi/2")
-        return self._tau(2 * np.pi * f[:, None], th[None, :])
+        f = checks.frequencies(f_hz)
+        th = checks.angles(theta_rad, nf=f.size)
+        self._warn_ranges(f)
+        rows = max(1, 2_000_000 // th.size)  # bounded temporaries; loop over blocks only
+        return np.concatenate([self._tau(2 * np.pi * f[i:i + rows, None], th[None, :])
+                               for i in range(0, f.size, rows)])
 
     def sharp_trace_wavenumbers(self, omega) -> np.ndarray | None:
         """Split points for the angle quadrature, (nf, p): every layer's sharp trace
@@ -223,20 +234,29 @@ class Stack:
         (90 deg) apply Paris' formula with the adaptive quadrature of
         :func:`noisebudget.incidence.paris_average` to relative accuracy ``rtol``.
         """
+        f = checks.frequencies(f_hz)
+        self._warn_ranges(f)
+        return self._average(f, incidence, theta_max_deg, rtol)
+
+    def _average(self, f, incidence, theta_max_deg, rtol):
+        """:meth:`average_transmission` for checked frequencies, without warnings."""
         if incidence not in INCIDENCE:
             raise ValueError(f"incidence must be one of {INCIDENCE}, got {incidence!r}")
-        f = np.atleast_1d(np.asarray(f_hz, dtype=float))
         if incidence == "normal":
-            return self.transmission_coefficient(f, [0.0])[:, 0]
+            return self._tau(2 * np.pi * f[:, None], np.zeros((1, 1)))[:, 0]
         if theta_max_deg is None:
             theta_max_deg = default_theta_max_deg(incidence)
         if not 0.0 < theta_max_deg <= 90.0:
-            raise ValueError(f"theta_max_deg must lie in (0, 90], got {theta_max_deg}")
-        omega = 2 * np.pi * f[:, None]
-        k0 = omega[:, 0] / self.source_air.sound_speed
-        return paris_average(lambda rows, theta: self._tau(omega[rows], theta), k0,
-                             self.sharp_trace_wavenumbers(omega), np.radians(theta_max_deg),
-                             rtol)
+            raise checks.ArgumentError(f"theta_max_deg = {theta_max_deg}: must lie in "
+                                       f"(0, 90]")
+        out = []
+        for i in range(0, f.size, _CHUNK):  # blocks of frequencies bound the memory
+            omega = 2 * np.pi * f[i:i + _CHUNK, None]
+            k0 = omega[:, 0] / self.source_air.sound_speed
+            out.append(paris_average(lambda rows, theta, w=omega: self._tau(w[rows], theta),
+                                     k0, self.sharp_trace_wavenumbers(omega),
+                                     np.radians(theta_max_deg), rtol))
+        return np.concatenate(out)
 
     def transmission_loss(self, f_hz, incidence: str = "field",
                           theta_max_deg: float | None = None, rtol: float = 3e-3):
@@ -255,8 +275,10 @@ class Stack:
         angle integral inside runs at ``3 rtol``: the frequency integral averages its
         (conservatively estimated) error further.
         """
-        tau = band_average(lambda f: self.average_transmission(f, incidence, theta_max_deg,
-                                                               3 * rtol), bands, rtol)
+        edges = checks.frequencies(np.concatenate([bands.lower, bands.upper]), "band edges")
+        self._warn_ranges(edges)
+        tau = band_average(lambda f: self._average(f, incidence, theta_max_deg, 3 * rtol),
+                           bands, rtol)
         return -10 * np.log10(np.maximum(tau, 10 ** (-TL_CAP_DB / 10)))
 
     def _surface(self, omega, theta, backing):
@@ -286,8 +308,9 @@ class Stack:
         ``Zs = T11 / T21``); ``"receiver"`` with the receiving half-space (``p2 = Z2 v2``,
         ``Zs = (T11 Z2 + T12) / (T21 Z2 + T22)``).
         """
-        f = np.atleast_1d(np.asarray(f_hz, dtype=float))
-        th = np.atleast_1d(np.asarray(theta_rad, dtype=float))[None, :]
+        f = checks.frequencies(f_hz)
+        th = checks.angles(theta_rad, nf=f.size)[None, :]
+        self._warn_ranges(f)
         return self._surface(2 * np.pi * f[:, None], th, backing)
 
     def absorption_coefficient(self, f_hz, theta_rad=0.0, backing: str = "rigid"):
@@ -296,8 +319,9 @@ class Stack:
         With ``backing="receiver"`` the energy transmitted through counts as absorbed, as
         it does for the room on the source side.
         """
-        f = np.atleast_1d(np.asarray(f_hz, dtype=float))
-        th = np.atleast_1d(np.asarray(theta_rad, dtype=float))[None, :]
+        f = checks.frequencies(f_hz)
+        th = checks.angles(theta_rad, nf=f.size)[None, :]
+        self._warn_ranges(f)
         return self._alpha(2 * np.pi * f[:, None], th, backing)
 
     def random_incidence_absorption(self, f_hz, backing: str = "receiver",
@@ -307,7 +331,8 @@ class Stack:
         ``alpha_rand = 2 int alpha(theta) sin(theta) cos(theta) dtheta`` (Kuttruff, Room
         Acoustics), with the adaptive quadrature of the transmission loss.
         """
-        f = np.atleast_1d(np.asarray(f_hz, dtype=float))
+        f = checks.frequencies(f_hz)
+        self._warn_ranges(f)
         omega = 2 * np.pi * f[:, None]
         k0 = omega[:, 0] / self.source_air.sound_speed
         out = paris_average(lambda rows, theta: self._alpha(omega[rows], theta, backing), k0,

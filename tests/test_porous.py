@@ -14,6 +14,7 @@ from noisebudget.layers.porous import (
     limp_density,
     miki,
 )
+from noisebudget.media import Air
 
 
 def test_delany_bazley_coefficients():
@@ -113,3 +114,85 @@ def test_empirical_model_warns_outside_range():
 def test_jca_needs_its_parameters():
     with pytest.raises(ValueError, match="porosity"):
         nb.Porous("jca", 0.05, 1e4)
+
+
+def test_raw_delany_bazley_fit_gains_power_at_low_x():
+    # computed from the Delany & Bazley (1970) coefficients: below X of about 0.02,
+    # K = Zc omega / kc has Im K < 0 (an active compressibility) although Re Zc > 0 and
+    # Im kc < 0; as the spring of a mass-spring-mass wall at its resonance the raw fluid
+    # transmits 3.5 times the incident power
+    from noisebudget.layers.base import FluidElement, SheetElement
+    from noisebudget.stack import cascade
+    rho0, c0, sigma, d, m = 1.2, 343.0, 1e4, 0.09, 20.0
+    f = 0.00701 * sigma / rho0
+    zc, kc = delany_bazley(f, sigma, rho0, c0)
+    w = 2 * np.pi * f
+    rho, bulk = zc * kc / w, zc * w / kc
+    assert zc.real > 0 and kc.imag < 0 and bulk.imag < 0
+    sheet = SheetElement(np.array([[1j * w * m]]))
+    a, b, c, dd, scale = cascade([sheet, FluidElement(rho, bulk, d), sheet],
+                                 np.array([[w]]), np.zeros((1, 1)))
+    y = 1 / (rho0 * c0)
+    tau = float((4 * y * y / abs(a * y + b * y * y + c + dd * y) ** 2
+                 * np.exp(-2 * scale))[0, 0])
+    assert tau > 3.0
+    # the layer's own fluid is passive (Im rho <= 0, Im K >= 0), and so is the wall
+    layer = nb.Porous("delany-bazley", d, sigma)
+    r2, k2 = layer.equivalent_fluid(np.array([w]), Air())
+    assert r2[0].imag <= 0 and k2[0].imag >= 0
+    wall = nb.Stack([nb.Septum(m), layer, nb.Septum(m)])
+    with pytest.warns(ModelRangeWarning, match="Darcy continuation"):
+        taus = wall.transmission_coefficient(np.geomspace(20, 200, 400), [0.0])
+    assert taus.max() <= 1.0
+
+
+@pytest.mark.parametrize("model", ["delany-bazley", "miki"])
+def test_empirical_models_passive_from_1_Hz_to_20_kHz(model):
+    # energy balance (module notes): Im rho <= 0 and Im K >= 0 everywhere, hence tau <= 1
+    # for every thickness, flow resistivity and angle
+    f = np.geomspace(1.0, 20000.0, 120)
+    th = np.radians([0.0, 30.0, 60.0, 80.0, 89.9])
+    worst = 0.0
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ModelRangeWarning)
+        for sigma in np.geomspace(1e3, 1e6, 13):
+            layer = nb.Porous(model, 0.01, sigma)
+            rho, bulk = layer.equivalent_fluid(2 * np.pi * f, Air())
+            assert np.all(rho.imag <= 0) and np.all(bulk.imag >= 0)
+            for d in (1e-3, 5e-3, 0.02, 0.1, 0.3):
+                tau = nb.Stack([nb.Porous(model, d, sigma)]).transmission_coefficient(f, th)
+                assert np.all(np.isfinite(tau))
+                worst = max(worst, float(tau.max()))
+    assert worst <= 1.0 + 1e-12
+
+
+@pytest.mark.parametrize("model, ratio", [("delany-bazley", 1.0722), ("miki", 0.9009)])
+def test_darcy_continuation_below_the_fitted_range(model, ratio):
+    # below X = 0.01: j omega rho tends to a constant flow resistivity sigma_lo (Darcy),
+    # continuous with the fit at the range end; sigma_lo / sigma computed from the fits
+    sigma, air = 2e4, Air()
+    layer = nb.Porous(model, 0.05, sigma)
+    f_lo = layer.fitted_band(air)[0]
+    w = 2 * np.pi * np.array([f_lo / 1000, f_lo / 10, f_lo, f_lo * (1 + 1e-9)])
+    rho, bulk = layer.equivalent_fluid(w, air)
+    resist = (1j * w * rho).real
+    np.testing.assert_allclose(resist[:3], resist[2], rtol=1e-12)
+    assert resist[0] == pytest.approx(ratio * sigma, rel=0.01)
+    np.testing.assert_allclose(rho[3], rho[2], rtol=1e-6)
+    np.testing.assert_allclose(bulk[:3], bulk[2], rtol=0)
+
+
+def test_range_warning_once_per_layer_naming_it():
+    s = nb.Stack([nb.Porous("delany-bazley", 0.02, 4e4), nb.AirGap(0.01),
+                  nb.Porous("miki", 0.02, 2e3)], labels=("outer blanket", "gap", "inner"))
+    with warnings.catch_warnings(record=True) as got:
+        warnings.simplefilter("always")
+        s.transmission_loss(np.geomspace(20, 20000, 30))
+        s.band_transmission_loss(nb.third_octave_bands(25, 10000))
+        s.average_transmission([100.0, 150.0])
+    texts = {str(w.message) for w in got if issubclass(w.category, ModelRangeWarning)}
+    assert len(texts) == 2
+    outer = next(t for t in texts if t.startswith("layer[1] (outer blanket): delany-bazley"))
+    assert "below 332 Hz" in outer and "332-33220 Hz" in outer
+    inner = next(t for t in texts if t.startswith("layer[3] (inner): miki"))
+    assert "above 2000 Hz" in inner and "below 20 Hz" not in inner

@@ -4,26 +4,60 @@ Time convention ``exp(+j omega t)``: the wavenumbers have negative imaginary par
 Each model gives an effective density rho and bulk modulus K of the equivalent fluid;
 from the characteristic impedance Zc and wavenumber kc of the empirical models,
 ``rho = Zc kc / omega`` and ``K = Zc omega / kc``.
+
+Passivity. From the linearised equations ``j omega rho v = -grad p`` and
+``j omega p / K = -div v``, the time-averaged power flowing out of a volume element is
+``(1/2) Re div(p v*) = (omega / 2) [Im(rho) |v|^2 + Im(1/K) |p|^2]``, so a layer can
+never give out more power than it receives, for any boundary conditions, exactly when
+``Im rho <= 0`` and ``Im K >= 0`` (a viscous and a thermal loss, never a gain; the same
+energy argument as Allard & Atalla 2009, ch. 2, for the power dissipated in a porous
+layer). These imply ``Re Zc >= 0`` and ``Im kc <= 0``, but not conversely: the
+Delany-Bazley fit has ``Re Zc > 0`` and ``Im kc < 0`` at every X and still has
+``Im K < 0`` below X of about 0.02 (computed from the fit), so a thin layer there
+transmits more power than it receives (tau up to about 3). Miki (1990) modified the fit
+because Delany-Bazley's surface impedance is not positive-real at low frequency; his fit
+turns ``Im K < 0`` only below X = 0.001. Hence, for both empirical models:
+
+* below the fitted range (``X < 0.01``) the model is replaced by its Darcy continuation
+  from the lower end ``f_lo``: ``rho(omega) = Re rho_lo + Im rho_lo omega_lo / omega``
+  (a constant flow resistance, ``j omega rho -> sigma_lo``, as every rigid-frame porous
+  medium has at low frequency; ``sigma_lo`` is 1.07 sigma for Delany-Bazley and
+  0.90 sigma for Miki, computed from the fits) and
+  ``K = K_lo`` frozen;
+* above it (``X > 1``) the model is extrapolated (it tends to air and stays passive);
+* everywhere ``Im rho`` is limited to ``<= 0`` and ``Im K`` to ``>= 0``.
+
+The stack warns once per layer used outside the fitted range (``ModelRangeWarning``).
 """
 
 from __future__ import annotations
 
-import warnings
 from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import ModelRangeWarning
 from .base import Field, FluidElement, Layer, LayerValueError
 from .biot import biot_element, frame_modulus
 
-__all__ = ["MODELS", "Porous", "delany_bazley", "jca_bulk_modulus", "jca_density",
-           "limp_density", "miki"]
+__all__ = ["EMPIRICAL_RANGE", "MODELS", "Porous", "delany_bazley", "jca_bulk_modulus",
+           "jca_density", "limp_density", "miki", "passive_fluid"]
 
 MODELS = ("delany-bazley", "miki", "jca", "jca-limp", "biot")
 _JCA = ("porosity", "tortuosity", "viscous_length", "thermal_length")
 NEEDS = {"jca": _JCA, "jca-limp": (*_JCA, "bulk_density"),  # keys each model requires
          "biot": (*_JCA, "bulk_density", "youngs_modulus", "poisson_ratio", "loss_factor")}
+EMPIRICAL_RANGE = (0.01, 1.0)  # fitted range of X for Delany-Bazley and Miki
+
+
+def _hz(v: float) -> str:
+    return f"{v:.0f}" if v >= 100 else f"{v:.3g}"
+
+
+def passive_fluid(rho, bulk):
+    """Limit ``Im rho`` to ``<= 0`` and ``Im K`` to ``>= 0`` (see the module notes)."""
+    rho, bulk = np.asarray(rho, complex), np.asarray(bulk, complex)
+    return (rho.real + 1j * np.minimum(rho.imag, 0.0),
+            bulk.real + 1j * np.maximum(bulk.imag, 0.0))
 
 
 def delany_bazley(f, flow_resistivity, rho0, c0):
@@ -126,11 +160,10 @@ class Porous(Layer):
 
     Notes
     -----
-    Except in ``"biot"``, the frame's elasticity is neglected (no frame wave): good for
-    light blankets behind a skin, not for stiff foams bonded to a panel. A ``"biot"`` layer
-    is solved with its three waves (fast, slow, shear) by :mod:`noisebudget.multilayer`,
-    bonded or not to its neighbours. The empirical models warn
-    (``ModelRangeWarning``) outside 0.01 < X < 1.
+    The frame's elasticity is neglected (no Biot frame wave): good for light blankets
+    behind a skin, not for stiff foams bonded to a panel. Outside 0.01 < X < 1 the
+    empirical models use the passive continuation of the module notes, and the stack
+    warns (``ModelRangeWarning``, :meth:`range_note`).
     """
 
     model: str = "delany-bazley"
@@ -176,24 +209,52 @@ class Porous(Layer):
     def areal_mass(self):
         return (self.bulk_density or 0.0) * self.layer_thickness
 
+    def fitted_band(self, air) -> tuple[float, float] | None:
+        """Frequencies (Hz) of the empirical model's fitted range 0.01 < X < 1, or None."""
+        if self.model not in ("delany-bazley", "miki"):
+            return None
+        scale = air.density if self.model == "delany-bazley" else 1.0
+        lo, hi = EMPIRICAL_RANGE
+        return lo * self.flow_resistivity / scale, hi * self.flow_resistivity / scale
+
+    def range_note(self, f_hz, air) -> str | None:
+        """One line on use outside the fitted range at ``f_hz``, or None.
+
+        The line depends only on the layer and on which side of the range is used, so a
+        warning filter shows it once per layer.
+        """
+        band = self.fitted_band(air)
+        if band is None:
+            return None
+        f = np.asarray(f_hz, dtype=float)
+        lo, hi = band
+        sides = []
+        if np.any(f < lo):
+            sides.append(f"below {_hz(lo)} Hz (Darcy continuation, passive)")
+        if np.any(f > hi):
+            sides.append(f"above {_hz(hi)} Hz (extrapolated)")
+        if not sides:
+            return None
+        return (f"{self.model} (sigma {self.flow_resistivity:g} Pa s/m^2) is fitted for "
+                f"{_hz(lo)}-{_hz(hi)} Hz (0.01 < X < 1) and is used {' and '.join(sides)}")
+
     def equivalent_fluid(self, omega, air):
-        """Effective density and bulk modulus (complex arrays shaped like omega); for
-        ``"biot"`` those of the pore air with the frame held rigid (JCA)."""
+        """Effective density and bulk modulus (complex arrays shaped like omega), passive
+        at every frequency (see the module notes)."""
         omega = np.asarray(omega, dtype=float)
         rho0, c0 = air.density, air.sound_speed
-        f = omega / (2 * np.pi)
-        if self.model in ("delany-bazley", "miki"):
-            x = f / self.flow_resistivity * (rho0 if self.model == "delany-bazley" else 1.0)
-            if np.any((x < 0.01) | (x > 1.0)):
-                scale = rho0 if self.model == "delany-bazley" else 1.0
-                lo, hi = 0.01 * self.flow_resistivity / scale, self.flow_resistivity / scale
-                warnings.warn(
-                    f"{self.model} (sigma {self.flow_resistivity:g} Pa s/m^2) is fitted for "
-                    f"{lo:.0f}-{hi:.0f} Hz (0.01 < X < 1) and is used outside that range",
-                    ModelRangeWarning, stacklevel=3)
+        band = self.fitted_band(air)
+        if band is not None:
+            f = omega / (2 * np.pi)
+            f_lo = band[0]
+            f_eff = np.maximum(f, f_lo)
             fn = delany_bazley if self.model == "delany-bazley" else miki
-            zc, kc = fn(f, self.flow_resistivity, rho0, c0)
-            return zc * kc / omega, zc * omega / kc
+            zc, kc = fn(f_eff, self.flow_resistivity, rho0, c0)
+            w_eff = 2 * np.pi * f_eff
+            rho, bulk = zc * kc / w_eff, zc * w_eff / kc
+            # Darcy continuation below the range: the loss part of rho grows as 1/omega
+            rho = rho.real + 1j * rho.imag * (f_eff / f)
+            return passive_fluid(rho, bulk)
         rho = jca_density(omega, self.flow_resistivity, self.porosity, self.tortuosity,
                           self.viscous_length, air)
         if self.model == "jca-limp":

@@ -1,26 +1,72 @@
 """Membrane-mass resonator cells and tile arrays as locally reacting impedance sheets.
 
 Time convention ``exp(+j omega t)``; the membrane's loss enters as a complex tension
-``T (1 + j eta)``.
+``T (1 + j eta)``, so ``k = omega sqrt(rho_s / (T (1 + j eta)))`` lies in the fourth
+quadrant (``Im k <= 0``).
 
 Cell (exact axisymmetric solution). A circular membrane of radius ``a``, surface density
 ``rho_s`` and tension ``T`` is clamped at ``r = a`` to the grid; a rigid disk of radius
-``r0`` and mass ``M`` is bonded at its centre. Under a uniform pressure ``p_m`` on the
+``r0`` and mass ``M`` is bonded at its centre. Under a uniform pressure ``p`` on the
 membrane and a force ``F_d`` on the disk the membrane obeys
-``T (w'' + w'/r) + omega^2 rho_s w = -p_m`` on ``r0 < r < a``, so with
-``k^2 = omega^2 rho_s / T`` and ``q = p_m / (k^2 T)``::
+``T (w'' + w'/r) + omega^2 rho_s w = -p`` on ``r0 < r < a``, and the disk, moving as
+``W = w(r0)``, obeys ``-omega^2 M_d W = F_d + 2 pi r0 T w'(r0)`` (``M_d`` = disk plus the
+membrane under it). With ``w(a) = 0`` the annulus solution splits as::
 
-    w(r) = A J0(kr) + B Y0(kr) - q
+    w(r) = W phi(r) + (p / T) u(r)
 
-with ``w(a) = 0``, the disk moving as ``W = w(r0)`` and obeying
-``-omega^2 M_d W = F_d + 2 pi r0 T w'(r0)`` (``M_d`` = disk plus the membrane under it).
-Area integrals use ``int r J0(kr) dr = r J1(kr) / k`` (likewise Y). The bare membrane
-(``r0 = 0``, ``M = 0``) keeps only ``J0``: ``m_eff = rho_s / [1 - 2 J1(ka) / (ka J0(ka))]``,
-zero at ``J0(ka) = 0`` (the first TL dip, f01 = 2.4048 / (2 pi a) sqrt(T / rho_s); Rayleigh,
-Theory of Sound) and infinite where the area-averaged displacement vanishes (total
-reflection; Yang et al., Phys. Rev. Lett. 101, 204301, 2008; Chen et al., JASA 136
-(2014) 969). The effective surface mass is ``m_eff = p / (-omega^2 <w>)``, negative where
-the cell is stiffness-like; ``Z = j omega m_eff``.
+``phi``: homogeneous (``phi'' + phi'/r + k^2 phi = 0``), ``phi(r0) = 1``, ``phi(a) = 0``;
+``u``: ``u'' + u'/r + k^2 u = -1``, ``u(r0) = u(a) = 0``. Four numbers per frequency
+carry the whole cell: ``phi'(r0)``, ``I_phi = int r phi dr``, ``u'(r0)``,
+``I_u = int r u dr`` (over ``r0 .. a``); then::
+
+    W   = -[F_d + 2 pi r0 p u'(r0)] / [omega^2 M_d + 2 pi r0 T phi'(r0)]
+    vol = 2 pi [W I_phi + (p / T) I_u]            (annulus volume displacement)
+
+The bare membrane (``r0 = 0``, ``M = 0``) has ``u = (J0(kr) / J0(ka) - 1) / k^2``, so with
+``J0(z) + J2(z) = 2 J1(z) / z`` (Abramowitz & Stegun 9.1.27)::
+
+    <w> = p / (k^2 T) J2(ka) / J0(ka),   m_eff = rho_s J0(ka) / (-J2(ka))
+
+zero at ``J0(ka) = 0`` (the first TL dip, f01 = 2.4048 / (2 pi a) sqrt(T / rho_s);
+Rayleigh, Theory of Sound) and infinite at ``J2(ka) = 0`` where the area-averaged
+displacement vanishes (total reflection; Yang et al., Phys. Rev. Lett. 101, 204301,
+2008; Chen et al., JASA 136 (2014) 969). ``J2 / J0`` is formed from the exponentially
+scaled ``jve`` (the scale ``exp|Im ka|`` cancels), so it neither overflows nor cancels;
+at low frequency ``J2(ka) ~ (ka)^2 / 8`` gives the static ``<w> = p a^2 / (8 T)``.
+
+Numerical stability. The textbook form ``A J0(kr) + B Y0(kr) - p / (k^2 T)`` fails twice:
+(i) with loss, ``J`` and ``Y`` grow like ``exp(|Im k| r)``, the determinant
+``J0(ka) Y0(kr0) - Y0(ka) J0(kr0)`` is a difference of two terms of size
+``exp(|Im k| (a + r0))`` whose value is ``exp(|Im k| (a - r0))``, so all digits cancel
+(and ``jv`` overflows) for slack or very lossy membranes at high frequency; (ii) at low
+frequency the particular solution ``p / (k^2 T)`` cancels against the homogeneous part,
+losing ``(ka)^-2``. Here:
+
+* ``|ka| > 2``: cross products ``C_mn(x, y) = J_m(x) Y_n(y) - Y_m(x) J_n(y)`` of
+  ``x = k r0``, ``y = k a`` are written with Hankel functions,
+  ``C_mn = [H2_m(x) H1_n(y) - H1_m(x) H2_n(y)] / 2j``. For ``Im k <= 0``, ``H2(kr) ~
+  exp(-jkr)`` decays outwards and ``H1`` grows, so with ``d = y - x`` and the scaled
+  ``hankel1e``/``hankel2e`` (``H1 e^{-jz}``, ``H2 e^{jz}``)::
+
+      C_mn e^{Im d} = e^{j Re d} / 2j [h2e_m(x) h1e_n(y) - h1e_m(x) h2e_n(y) e^{-2jd}]
+
+  where ``|e^{-2jd}| = e^{2 Im d} <= 1``: the large part is factored out exactly and the
+  small one underflows harmlessly. With ``phi = C00(kr, y) / C00(x, y)``,
+  ``chi = C00(x, kr) / C00(x, y)`` (``chi(r0) = 0``, ``chi(a) = 1``),
+  ``u = (phi + chi - 1) / k^2``, ``int r Z0(kr) dr = r Z1(kr) / k`` and the Wronskian
+  ``J1 Y0 - J0 Y1 = 2 / (pi z)`` (A&S 9.1.16)::
+
+      phi'(r0) = -k C10 / C00             I_phi = [2 / (pi k^2) - (r0 / k) C10] / C00
+      chi'(r0) = 2 / (pi r0 C00)          I_chi = [2 / (pi k^2) + (a / k) C01] / C00
+
+  each a ratio in which the scale ``e^{Im d}`` cancels, or carries ``e^{Im d} <= 1``.
+* ``|ka| <= 2``: power series (A&S 9.1.10, 9.1.13) in ``s = (kr / 2)^2`` of the basis
+  ``J0(kr)``, ``ln(r / a) J0(kr) + sum (-1)^(n+1) H_n s^n / (n!)^2`` (a Bessel function of
+  the second kind less a multiple of ``J0``) and ``(1 - J0(kr)) / k^2``, integrated term by
+  term: every term is bounded, none divides by ``k^2``. 18 terms give full precision.
+
+The Hankel form is exact algebra, so where the textbook form is accurate both agree (a
+test checks both against an mpmath evaluation of the textbook form at 40 digits).
 
 Tile. Cells sit on a square grid of pitch ``P``; each unit of area ``P^2`` holds one cell
 (kinds mixed by ``share``). With a *clamped* grid the tile's mean displacement is the sum
@@ -37,12 +83,87 @@ impedance does not depend on the angle of incidence.
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from math import factorial
 
 import numpy as np
 
 from .base import Field, Layer, LayerValueError, LayerValueErrors, SheetElement
 
 __all__ = ["Cell", "Tile"]
+
+SERIES_LIMIT = 2.0   # |k a| at or below which the power series are used
+_N = 18              # series terms: (|ka| / 2)^(2n) / (n!)^2 < 1e-30 at n = 18
+_n = np.arange(_N, dtype=float)
+_T = (-1.0) ** _n / np.array([float(factorial(i)) ** 2 for i in range(_N)])  # (-1)^n/(n!)^2
+_HARM = np.concatenate([[0.0], np.cumsum(1.0 / np.arange(1, _N))])         # H_n
+_W = 2 * _n + 2
+# columns: J0, H-sum, (1-J0)/k^2 / (r^2/4), and their r-derivatives and integrals (see
+# _series); one matrix product evaluates all nine sums
+_COEF = np.stack([_T, -_T * _HARM, _T / (_n + 1) ** 2,
+                  _T * _n, _T * _n * _HARM, _T / (_n + 1),
+                  _T / _W, -_T / _W * (1 / _W + _HARM), _T / (_n + 1) ** 2 / (_W + 2)], axis=1)
+
+
+def _series(k, r, a):
+    """Values, r-derivatives and integrals ``int_0^r r' f dr'`` of the series basis.
+
+    Returns three tuples ``(u1, u2, up)`` (values), derivatives and integrals, with
+    ``u1 = J0(kr)``, ``u2 = ln(r/a) J0(kr) + sum_{n>=1} (-1)^(n+1) H_n s^n / (n!)^2`` and
+    ``up = (1 - J0(kr)) / k^2``, ``s = (kr/2)^2``. Integrals of ``u2`` are taken from 0
+    (the log term is integrable). ``r`` > 0 broadcasts against ``k``.
+    """
+    k, r = np.broadcast_arrays(np.asarray(k, complex), np.asarray(r, float))
+    s = (k * r / 2) ** 2
+    p = np.empty(s.shape + (_N,), complex)
+    p[..., 0] = 1.0
+    p[..., 1] = s
+    for i in range(2, _N):  # powers s^n: a loop over series terms, not frequencies
+        p[..., i] = p[..., i - 1] * s
+    sums = p.real @ _COEF + 1j * (p.imag @ _COEF)  # real products: no complex BLAS call
+    j0, h, upn, dj, dh, dpn, ij, ihn, ipn = np.moveaxis(sums, -1, 0)
+    ln = np.log(r / a)
+    u1, u2, up = j0, ln * j0 + h, r**2 / 4 * upn
+    d1 = 2 / r * dj
+    d2 = j0 / r + ln * d1 - 2 / r * dh
+    dp = r / 2 * dpn
+    i1 = r**2 * ij
+    i2 = r**2 * (ln * ij + ihn)
+    ip = r**4 / 4 * ipn
+    return (u1, u2, up), (d1, d2, dp), (i1, i2, ip)
+
+
+def _hankels(z):
+    """Scaled Hankel functions of orders 0 and 1: ``(h1e0, h1e1, h2e0, h2e1)`` at z,
+    using ``H2_v(z) = conj(H1_v(conj z))`` (real order): one call per order."""
+    from scipy import special
+
+    both = np.concatenate([z, np.conj(z)])
+    h0, h1 = special.hankel1e(0, both), special.hankel1e(1, both)
+    n = z.size
+    return h0[:n], h1[:n], np.conj(h0[n:]), np.conj(h1[n:])
+
+
+def _cross(m, n, x, y):
+    """``C_mn(x, y) e^{Im(y - x)}`` for ``Im x, Im y <= 0``, ``|x| <= |y|`` (see module)."""
+    from scipy import special
+
+    d = y - x
+    big = special.hankel2e(m, x) * special.hankel1e(n, y)
+    small = special.hankel1e(m, x) * special.hankel2e(n, y) * np.exp(-2j * d)
+    return np.exp(1j * d.real) / 2j * (big - small)
+
+
+@dataclass(frozen=True)
+class _Annulus:
+    """Per-frequency constants of a cell (see the module notes)."""
+
+    omega: np.ndarray
+    tension: complex
+    k: np.ndarray
+    dphi: np.ndarray | None      # phi'(r0)
+    iphi: np.ndarray | None      # int r phi dr
+    du: np.ndarray | None        # u'(r0)
+    iu: np.ndarray               # int r u dr (bare membrane: over 0 .. a)
 
 
 @dataclass(frozen=True)
@@ -60,7 +181,7 @@ class Cell:
     mass, mass_radius : float
         Central disk mass M in kg and radius r0 in m (both 0 for a bare membrane).
     loss_factor : float
-        eta of the complex tension T (1 + j eta).
+        eta >= 0 of the complex tension T (1 + j eta).
     share : float
         Fraction of the tile's cells that are of this kind.
     """
@@ -75,6 +196,14 @@ class Cell:
     share: float = 1.0
 
     def __post_init__(self):
+        for key in ("radius", "membrane_thickness", "membrane_density", "tension", "share"):
+            v = getattr(self, key)
+            if not (np.isfinite(v) and v > 0):
+                raise LayerValueError(key, f"must be a finite number > 0, got {v!r}")
+        for key in ("mass", "mass_radius", "loss_factor"):
+            v = getattr(self, key)
+            if not (np.isfinite(v) and v >= 0):
+                raise LayerValueError(key, f"must be a finite number >= 0, got {v!r}")
         if self.mass_radius >= self.radius:
             raise LayerValueError("mass_radius", "must be smaller than radius")
         if self.mass > 0 and self.mass_radius == 0:
@@ -100,65 +229,119 @@ class Cell:
         return 2.404825557695773 / (2 * np.pi * self.radius) * np.sqrt(
             self.tension / self.surface_density)
 
-    def _bessel(self, omega):
-        """k, complex tension and the Bessel values at ka and k r0, computed once."""
+    def _wavenumber(self, omega):
+        t = self.tension * (1 + 1j * self.loss_factor)
+        return t, omega * np.sqrt(self.surface_density / t)
+
+    def _annulus(self, omega) -> _Annulus:
+        """``phi'(r0)``, ``I_phi``, ``u'(r0)``, ``I_u`` at each omega, computed once."""
         from scipy import special  # imported on first use: keeps the package import fast
 
         omega = np.asarray(omega, dtype=float)
-        t = self.tension * (1 + 1j * self.loss_factor)
-        k = omega * np.sqrt(self.surface_density / t)
-        ka, kr = k * self.radius, k * self.mass_radius
-        b = {"j0a": special.jv(0, ka), "j1a": special.jv(1, ka)}
-        if self.mass_radius > 0:
-            b.update(y0a=special.yv(0, ka), y1a=special.yv(1, ka), j0r=special.jv(0, kr),
-                     j1r=special.jv(1, kr), y0r=special.yv(0, kr), y1r=special.yv(1, kr))
-        return omega, t, k, b
+        t, k = self._wavenumber(omega)
+        k = np.asarray(k + 0j)
+        a, r0 = self.radius, self.mass_radius
+        y = k * a
+        if r0 == 0.0:  # bare membrane: I_u = a^2 J2(ka) / (2 k^2 J0(ka)), any ka
+            with np.errstate(divide="ignore", invalid="ignore"):
+                ratio = special.jve(2, y) / special.jve(0, y)
+                iu = np.where(np.abs(y) > 1e-3, a**2 / 2 * ratio / k**2,
+                              a**4 / 16 * (1 + y**2 / 6))  # J2/J0 = (ka)^2 (1 + (ka)^2 / 6) / 8
+            return _Annulus(omega, t, k, None, None, None, iu)
+        dphi, iphi, du, iu = (np.empty(k.shape, complex) for _ in range(4))
+        low = np.abs(y) <= SERIES_LIMIT
+        if low.any():
+            kl = k[low]
+            (v1a, v2a, vpa), _, (i1a, i2a, ipa) = _series(kl, a, a)
+            (v1r, v2r, vpr), (d1r, d2r, dpr), (i1r, i2r, ipr) = _series(kl, r0, a)
+            det = v1r * v2a - v2r * v1a
+            # phi = alpha u1 + beta u2 with phi(r0) = 1, phi(a) = 0
+            alpha, beta = v2a / det, -v1a / det
+            # u = -up + A u1 + B u2 with u(r0) = u(a) = 0
+            aa = (vpr * v2a - v2r * vpa) / det
+            bb = (v1r * vpa - vpr * v1a) / det
+            di1, di2, dip = i1a - i1r, i2a - i2r, ipa - ipr
+            dphi[low] = alpha * d1r + beta * d2r
+            iphi[low] = alpha * di1 + beta * di2
+            du[low] = -dpr + aa * d1r + bb * d2r
+            iu[low] = -dip + aa * di1 + bb * di2
+        high = ~low
+        if high.any():
+            kh = k[high]
+            x, yh = kh * r0, kh * a
+            d = yh - x
+            e = np.exp(d.imag)  # e^{Im d} <= 1
+            # C_mn(x, y) e^{Im d}, as in _cross, from eight scaled Hankel values
+            a0x, a1x, b0x, b1x = _hankels(x)
+            a0y, a1y, b0y, b1y = _hankels(yh)
+            small = np.exp(-2j * d)
+            pre2j = np.exp(1j * d.real) / 2j
+            c00 = pre2j * (b0x * a0y - a0x * b0y * small)
+            c10 = pre2j * (b1x * a0y - a1x * b0y * small)
+            c01 = pre2j * (b0x * a1y - a0x * b1y * small)
+            w = 2 * e / (np.pi * kh**2)
+            dph = -kh * c10 / c00
+            iph = (w - r0 / kh * c10) / c00
+            dchi = 2 * e / (np.pi * r0 * c00)
+            ichi = (w + a / kh * c01) / c00
+            dphi[high], iphi[high] = dph, iph
+            du[high] = (dph + dchi) / kh**2
+            iu[high] = (iph + ichi - (a**2 - r0**2) / 2) / kh**2
+        return _Annulus(omega, t, k, dphi, iphi, du, iu)
 
-    def _solve(self, pre, p_m, f_d):
-        """Coefficients A, B, q for membrane pressure p_m and disk force f_d."""
-        omega, t, k, b = pre
-        q = p_m / (k**2 * t)
-        if self.mass_radius == 0.0:
-            return q / b["j0a"], 0.0, q
-        r0, md = self.mass_radius, self.disk_mass
-        c1 = -(omega**2) * md * b["j0r"] + 2 * np.pi * r0 * t * k * b["j1r"]
-        c2 = -(omega**2) * md * b["y0r"] + 2 * np.pi * r0 * t * k * b["y1r"]
-        rhs = f_d - omega**2 * md * q
-        det = b["j0a"] * c2 - b["y0a"] * c1
-        return (q * c2 - b["y0a"] * rhs) / det, (b["j0a"] * rhs - q * c1) / det, q
-
-    def response(self, omega, p_m, f_d, pre=None):
+    def response(self, omega, p_m, f_d, pre: _Annulus | None = None):
         """Annulus volume displacement and disk displacement for the loads.
 
-        Returns ``(vol_annulus, disk)``: ``int w dA`` over ``r0 < r < a`` (m^3) and ``W``.
-        ``pre`` reuses the Bessel values of :meth:`_bessel` for several load cases.
+        Returns ``(vol_annulus, disk)``: ``int w dA`` over ``r0 < r < a`` (m^3) and ``W``,
+        for a pressure ``p_m`` on the membrane and a force ``f_d`` on the disk. ``pre``
+        reuses the constants of :meth:`_annulus` for several load cases.
         """
-        pre = pre or self._bessel(omega)
-        _, _, k, b = pre
-        a, r0 = self.radius, self.mass_radius
-        amp_a, amp_b, q = self._solve(pre, p_m, f_d)
-        if r0 == 0.0:
-            vol = 2 * np.pi * amp_a * a * b["j1a"] / k - q * np.pi * a**2
+        pre = pre or self._annulus(omega)
+        if self.mass_radius == 0.0:
+            vol = 2 * np.pi * p_m / pre.tension * pre.iu
             return vol, np.zeros_like(vol)
-        vol = (2 * np.pi * (amp_a * (a * b["j1a"] - r0 * b["j1r"])
-                            + amp_b * (a * b["y1a"] - r0 * b["y1r"])) / k
-               - q * np.pi * (a**2 - r0**2))
-        return vol, amp_a * b["j0r"] + amp_b * b["y0r"] - q
+        r0, t = self.mass_radius, pre.tension
+        disk = -(f_d + 2 * np.pi * r0 * p_m * pre.du) / (
+            pre.omega**2 * self.disk_mass + 2 * np.pi * r0 * t * pre.dphi)
+        vol = 2 * np.pi * (disk * pre.iphi + p_m / t * pre.iu)
+        return vol, disk
 
     def displacement_profile(self, omega: float, r, pressure: float = 1.0):
-        """Radial displacement w(r) in m under a uniform pressure (clamped rim)."""
-        r = np.asarray(r, dtype=float)
+        """Radial displacement w(r) in m at one frequency under a uniform pressure on the
+        membrane and the disk (clamped rim)."""
         from scipy import special
 
-        pre = self._bessel(np.asarray(omega, dtype=float))
-        amp_a, amp_b, q = self._solve(pre, pressure, pressure * np.pi * self.mass_radius**2)
-        k, b = pre[2], pre[3]
-        w = amp_a * special.jv(0, k * r) - q
-        if self.mass_radius > 0:
-            w = w + amp_b * special.yv(0, k * np.maximum(r, self.mass_radius))
-            disk = amp_a * b["j0r"] + amp_b * b["y0r"] - q
-            w = np.where(r < self.mass_radius, disk, w)
-        return w
+        r = np.asarray(r, dtype=float)
+        omega = float(omega)
+        pre = self._annulus(np.array([omega]))
+        a, r0 = self.radius, self.mass_radius
+        _, disk = self.response(np.array([omega]), pressure, pressure * np.pi * r0**2, pre)
+        t, k = pre.tension, complex(pre.k[0])
+        rr = np.clip(r, max(r0, 1e-12 * a), a)
+        if abs(k * a) <= SERIES_LIMIT:
+            kk = np.full(rr.shape, k)
+            (v1, v2, vp), _, _ = _series(kk, rr, a)
+            (v1a, v2a, vpa), _, _ = _series(np.array([k]), a, a)
+            if r0 == 0.0:
+                u = -vp + vpa * v1 / v1a
+                phi = np.zeros_like(u)
+            else:
+                (v1r, v2r, vpr), _, _ = _series(np.array([k]), r0, a)
+                det = v1r * v2a - v2r * v1a
+                phi = (v2a * v1 - v1a * v2) / det
+                u = -vp + ((vpr * v2a - v2r * vpa) * v1 + (v1r * vpa - vpr * v1a) * v2) / det
+        elif r0 == 0.0:
+            scale = np.exp(k.imag * (a - rr))  # J0(kr) / J0(ka) with jve
+            u = (special.jve(0, k * rr) / special.jve(0, k * a) * scale - 1) / k**2
+            phi = np.zeros_like(u)
+        else:
+            x, y = k * r0, k * a
+            c0 = _cross(0, 0, x, y)
+            phi = _cross(0, 0, k * rr, y) / c0 * np.exp(k.imag * (rr - r0))
+            chi = _cross(0, 0, x, k * rr) / c0 * np.exp(k.imag * (a - rr))
+            u = (phi + chi - 1) / k**2
+        w = disk[0] * phi + pressure / t * u
+        return np.where(r < r0, disk[0], w)
 
     def effective_mass(self, omega):
         """m_eff = p / (-omega^2 <w>) of the clamped cell, <w> over the area pi a^2."""
@@ -231,7 +414,7 @@ class Tile(Layer):
         for c in self.cells:  # loop over cell kinds, not frequencies
             r0a = np.pi * c.mass_radius**2
             key = (c.surface_density, c.tension, c.loss_factor, c.radius, c.mass_radius)
-            pre = shared.get(key) or shared.setdefault(key, c._bessel(omega))
+            pre = shared.get(key) or shared.setdefault(key, c._annulus(omega))
             vp, wp = c.response(omega, pressure, pressure * r0a, pre)  # pressure load
             vu, wu = c.response(omega, omega**2 * c.surface_density, omega**2 * c.disk_mass,
                                 pre)  # inertial load of a unit grid displacement

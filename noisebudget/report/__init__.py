@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-__all__ = ["CAUTIONS", "report_targets", "write_reports"]
+__all__ = ["CAUTIONS", "REPORT_KINDS", "report_targets", "write_reports"]
 
 CAUTIONS = (
     "Every number in this report is an engineering estimate from idealised models "
@@ -19,18 +19,28 @@ CAUTIONS = (
 )
 
 
-def report_targets(stem: str) -> list[str]:
-    """File names the reports will have."""
-    return [f"{stem}.pdf", f"{stem}.xlsx"]
+REPORT_KINDS = ("pdf", "xlsx")
 
 
-def write_reports(result, study_path: Path, outdir: Path, stem: str) -> list[Path]:
-    """Write ``<stem>.pdf`` and ``<stem>.xlsx`` atomically; returns their paths."""
-    from .pdf import write_pdf
-    from .workbook import write_workbook
+def report_targets(stem: str, kinds=REPORT_KINDS) -> list[str]:
+    """File names the reports of the given kinds will have."""
+    return [f"{stem}.{k}" for k in REPORT_KINDS if k in kinds]
 
-    pdf = outdir / f"{stem}.pdf"
-    xlsx = outdir / f"{stem}.xlsx"
-    write_workbook(result, xlsx)
-    write_pdf(result, study_path, pdf)
-    return [pdf, xlsx]
+
+def write_reports(result, study_path: Path, outdir: Path, stem: str,
+                  kinds=REPORT_KINDS) -> list[Path]:
+    """Write ``<stem>.pdf`` and/or ``<stem>.xlsx`` atomically into ``outdir``; returns
+    their paths. The command line writes them into a staging folder (see
+    :func:`noisebudget.writing.staged_set`) so that the whole set appears at once."""
+    written = []
+    if "xlsx" in kinds:
+        from .workbook import write_workbook
+
+        written.append(outdir / f"{stem}.xlsx")
+        write_workbook(result, written[-1])
+    if "pdf" in kinds:
+        from .pdf import write_pdf
+
+        written.append(outdir / f"{stem}.pdf")
+        write_pdf(result, study_path, written[-1])
+    return written

@@ -1,0 +1,182 @@
+"""Limits and refusals: grid and sample options of `tl` and `tile`, library arguments,
+`tile --fit` data files, and ratings when the bands fall short. Each case has its
+expected outcome: one line naming the option or argument, exit status 2 (or the
+library's ArgumentError), never a traceback or a huge allocation."""
+
+import numpy as np
+import pytest
+
+import noisebudget as nb
+from noisebudget.checks import MAX_FREQUENCIES, ArgumentError
+from noisebudget.cli import main
+from noisebudget.ratings import rw, stc
+from noisebudget.resources import data_path
+
+STACK = str(data_path("examples", "sidewall.toml"))
+TILE = str(data_path("examples", "tile.toml"))
+
+
+def one_line(capsys):
+    err = capsys.readouterr().err
+    lines = err.strip().splitlines()
+    assert len(lines) == 1 and "Traceback" not in err, err
+    return lines[0]
+
+
+@pytest.mark.parametrize("options, words", [
+    (["--fmin", "0"], "--fmin: 0 Hz: must be > 0"),
+    (["--fmin", "-20"], "--fmin: -20 Hz: must be > 0"),
+    (["--fmin", "nan"], "--fmin: nan is not a finite number"),
+    (["--fmax", "inf"], "--fmax: inf is not a finite number"),
+    (["--fmax", "1e12"], "--fmax: 1e+12 Hz: must lie in"),
+    (["--fmin", "5000", "--fmax", "100"], "--fmin 5000 Hz must be below --fmax 100 Hz"),
+    (["--fmin", "100", "--fmax", "100"], "must be below --fmax"),
+    (["--per-octave", "0"], "--per-octave: 0: must lie in 1 .. 1000"),
+    (["--per-octave", "-3"], "--per-octave: -3"),
+    (["--per-octave", "100000000"], "--per-octave: 100000000: must lie in 1 .. 1000"),
+    (["--frequencies", "100,nan"], "--frequencies[1] = nan Hz: must be a finite number"),
+    (["--frequencies", "100,-10"], "--frequencies[1] = -10 Hz: must be > 0"),
+    (["--frequencies", "0"], "--frequencies[0] = 0 Hz: must be > 0"),
+    (["--frequencies", "1e9"], "--frequencies[0] = 1e+09 Hz: must be <= 100000 Hz"),
+    (["--frequencies", ",,"], "--frequencies: give at least one frequency"),
+    (["--frequencies", "100,abc"], "--frequencies: not a list of numbers"),
+    (["--frequencies", ",".join(["100"] * (MAX_FREQUENCIES + 1))], "at most"),
+    (["--theta-max", "0"], "--theta-max: 0 deg: must lie in (0, 90]"),
+    (["--theta-max", "nan"], "--theta-max: nan deg"),
+    (["--theta-max", "91"], "--theta-max: 91 deg"),
+    (["--fmin", "100", "--fmax", "105", "--bands", "octave"],
+     "--bands octave: no band centre between 100 and 105 Hz"),
+])
+def test_tl_grid_options_refused_with_one_line(capsys, options, words):
+    assert main(["tl", STACK, *options]) == 2
+    assert words in one_line(capsys)
+
+
+@pytest.mark.parametrize("options, words", [
+    (["--fmin", "0"], "--fmin: 0 Hz: must be > 0"),
+    (["--fmax", "-1"], "--fmax: -1 Hz: must be > 0"),
+    (["--fmin", "300", "--fmax", "20"], "--fmin 300 Hz must be below --fmax 20 Hz"),
+    (["--fmax", "nan"], "--fmax: nan is not a finite number"),
+    (["--profile", "0"], "--profile: 0 Hz: must be > 0"),
+    (["--profile", "inf"], "--profile: inf is not a finite number"),
+    (["--profile", "1e7"], "--profile: 1e+07 Hz: must lie in"),
+    (["--tune-peak", "1e12Hz"], "--tune-peak: '1e12 Hz' is outside the range"),
+])
+def test_tile_options_refused_with_one_line(capsys, options, words):
+    assert main(["tile", TILE, *options]) == 2
+    assert words in one_line(capsys)
+
+
+def test_tile_profile_and_grid_within_limits_run(capsys):
+    assert main(["tile", TILE, "--fmin", "20", "--fmax", "20000", "--profile", "20000"]) == 0
+    out = capsys.readouterr().out
+    assert "cell 1 at 20000 Hz" in out and "nan" not in out.lower()
+
+
+@pytest.mark.parametrize("call, words", [
+    (lambda s: s.transmission_loss([100.0, 200.0, 300.0, -10.0]),
+     "f_hz[3] = -10 Hz: must be > 0"),
+    (lambda s: s.transmission_loss([np.nan]), "f_hz[0] = nan Hz: must be a finite number"),
+    (lambda s: s.transmission_loss([0.0]), "f_hz[0] = 0 Hz: must be > 0"),
+    (lambda s: s.transmission_loss([1e-9]), "f_hz[0] = 1e-09 Hz: must be >= 0.001 Hz"),
+    (lambda s: s.transmission_loss([3e5]), "f_hz[0] = 300000 Hz: must be <= 100000 Hz"),
+    (lambda s: s.transmission_loss(np.ones((2, 2))), "f_hz must be 1-D"),
+    (lambda s: s.transmission_loss([]), "f_hz is empty"),
+    (lambda s: s.transmission_loss(["a"]), "f_hz: not an array of numbers"),
+    (lambda s: s.transmission_loss(np.full(MAX_FREQUENCIES + 1, 100.0)),
+     f"f_hz has {MAX_FREQUENCIES + 1} values: at most {MAX_FREQUENCIES} per call"),
+    (lambda s: s.transmission_coefficient([100.0], [0.1, 2.0]),
+     "theta_rad[1] = 2 rad: must lie in 0 .. pi/2"),
+    (lambda s: s.transmission_coefficient(np.full(100000, 100.0), np.zeros(1000)),
+     "100000 frequencies x 1000 angles"),
+    (lambda s: s.transmission_loss([100.0], "field", float("nan")), "theta_max_deg = nan"),
+])
+def test_library_arguments_named_with_their_value(call, words):
+    s = nb.Stack([nb.Septum(2.0)])
+    with pytest.raises(ArgumentError) as info:
+        call(s)
+    assert words in str(info.value)
+    assert isinstance(info.value, ValueError)
+
+
+def test_large_request_is_computed_in_blocks():
+    # 5000 frequencies pass through the quadrature in blocks of 2048 with equal results
+    s = nb.Stack([nb.Septum(2.0), nb.AirGap(0.05), nb.Septum(1.0)])
+    f = np.geomspace(50, 10000, 5000)
+    whole = s.transmission_loss(f)
+    np.testing.assert_allclose(whole[4000:4010], s.transmission_loss(f[4000:4010]),
+                               rtol=0, atol=1e-9)
+
+
+FIT_CASES = {  # name: (bytes, expected words); '*' means a folder
+    "binary": (b"\x00\x01\x02\x03frequency", "is a binary file"),
+    "latin1": (b"frequency_hz,tl_db\n100,3\n# 20 \xb0C\n", "line 3: not UTF-8 text (byte 0xb0)"),
+    "empty": (b"", "is empty"),
+    "comments": (b"# nothing here\n\n", "is empty"),
+    "folder": ("*", "is a folder, not a data file"),
+    "inf": (b"frequency_hz,tl_db\n100,3\n200,inf\n", "line 3: frequency and TL must be finite"),
+    "nan": (b"frequency_hz,tl_db\nnan,3\n", "line 2: frequency and TL must be finite"),
+    "few": (b"frequency_hz,tl_db\n100,3\n200,4\n", "need at least 5 measured points, got 2"),
+    "unsorted": (b"frequency_hz,tl_db\n100,3\n200,4\n150,5\n300,1\n400,2\n",
+                 "line 4: frequency 150 Hz is below the previous 200 Hz"),
+    "repeated": (b"frequency_hz,tl_db\n100,3\n200,4\n200,5\n300,1\n400,2\n",
+                 "line 4: frequency 200 Hz repeats the previous 200 Hz"),
+    "header": (b"f,tl\n100,3\n", "line 1: expected the header 'frequency_hz,tl_db'"),
+    "three": (b"frequency_hz,tl_db\n100,3,4\n", "line 2: expected two numbers"),
+    "negative": (b"frequency_hz,tl_db\n-100,3\n", "line 2: frequency -100 Hz: must lie in"),
+}
+
+
+@pytest.mark.parametrize("name", sorted(FIT_CASES))
+def test_fit_data_files_refused_with_one_line(tmp_path, capsys, name):
+    content, words = FIT_CASES[name]
+    path = tmp_path / f"{name}.csv"
+    if content == "*":
+        path.mkdir()
+    else:
+        path.write_bytes(content)
+    assert main(["tile", TILE, "--fit", str(path)]) == 2
+    line = one_line(capsys)
+    assert line.startswith(str(path)) and words in line
+
+
+def test_fit_data_file_with_byte_order_mark_is_read(tmp_path):
+    from noisebudget.cli_tile import _read_measured
+    path = tmp_path / "bom.csv"
+    path.write_bytes(b"\xef\xbb\xbffrequency_hz,tl_db\n" + b"".join(
+        f"{100 * (i + 1)},{i}\n".encode() for i in range(6)))
+    f, tl = _read_measured(path)
+    np.testing.assert_array_equal(f, [100, 200, 300, 400, 500, 600])
+
+
+def test_ratings_return_what_the_bands_allow():
+    # ASTM E413 (STC) needs 125-4000 Hz, ISO 717-1 (Rw) 100-3150 Hz, ASTM E1332 (OITC)
+    # 80-4000 Hz: from 100 Hz up only OITC is missing; from 125 Hz Rw goes too
+    tl = 40.0
+    b = nb.third_octave_bands(100, 5000)
+    r = nb.ratings(b.nominal, np.full(len(b), tl))
+    assert r["stc"] == 40 and r["rw"] == 40
+    assert r["oitc"] is None and set(r.unavailable) == {"oitc"}
+    assert "missing 80 Hz" in r.unavailable["oitc"]
+    b = nb.third_octave_bands(125, 5000)
+    r = nb.ratings(b.nominal, np.full(len(b), tl))
+    assert r["stc"] == 40 and r["rw"] is None and r["c"] is None and r["ctr"] is None
+    assert "missing 100 Hz" in r.unavailable["rw"]
+    b = nb.third_octave_bands(160, 5000)
+    r = nb.ratings(b.nominal, np.full(len(b), tl))
+    assert all(v is None for v in r.values()) and len(r.unavailable) == 5
+    # with every band, the same numbers as the single ratings
+    b = nb.third_octave_bands(50, 5000)
+    vals = np.linspace(20, 55, len(b))
+    r = nb.ratings(b.nominal, vals)
+    assert r.unavailable == {}
+    assert r["stc"] == stc(b.nominal, vals) and (r["rw"], r["c"], r["ctr"]) == rw(b.nominal,
+                                                                               vals)
+
+
+def test_tl_bands_third_above_80_hz_prints_partial_ratings(capsys):
+    assert main(["tl", STACK, "--bands", "third", "--fmin", "100", "--fmax", "5000",
+                 "--per-octave", "3"]) == 0
+    captured = capsys.readouterr()
+    assert "OITC -" in captured.out and "STC " in captured.out
+    assert "note: OITC unavailable: OITC needs one-third-octave bands 80-4000 Hz" in captured.err
