@@ -102,7 +102,9 @@ def _numbers(values, n, file, where, errors):
     return np.array(values, dtype=float)
 
 
-def _cabin(table, file, errors):
+def _cabin(table, file, errors, info):
+    """Absorption area per band and the bands; ``info`` receives the volume and which
+    form of absorption the file gave, for the report's inputs."""
     where = "cabin"
     if not isinstance(table, dict):
         errors.append(InputError(file, where, "missing [cabin] table (volume and absorption)"))
@@ -120,6 +122,7 @@ def _cabin(table, file, errors):
         return None, bands
     given = [k for k in ("absorption_area", "reverberation_time", "mean_absorption")
              if k in table]
+    info.update(volume_m3=volume, absorption_given=given[0] if len(given) == 1 else "")
     if len(given) != 1:
         errors.append(InputError(file, where, "give exactly one of absorption_area, "
                                               "reverberation_time, mean_absorption"))
@@ -185,7 +188,7 @@ def _conditions(tables, file, errors):
         if bands is None:
             continue
         levels = _numbers(t.get("levels_db"), len(bands), file, f"{where}.levels_db", errors)
-        tones_f, tones_l = [], []
+        tones_f, tones_l, tones_n = [], [], []
         for j, tone in enumerate(t.get("tone", [])):
             tw = f"{where}.tone[{j + 1}]"
             if not isinstance(tone, dict):
@@ -202,11 +205,12 @@ def _conditions(tables, file, errors):
                                                               "condition's bands")
                 tones_f.append(f)
                 tones_l.append(float(lv))
+                tones_n.append(str(tone.get("name", f"{f:g} Hz")))
             except InputError as exc:
                 errors.append(exc)
         if levels is not None:
             out.append(Condition(str(t.get("name", f"condition {i + 1}")), bands, levels,
-                                 np.array(tones_f), np.array(tones_l)))
+                                 np.array(tones_f), np.array(tones_l), tuple(tones_n)))
     return out
 
 
@@ -337,7 +341,8 @@ def load_study(path) -> LoadedStudy:
     _unknown(air, ("exterior", "cabin"), file, "air.", errors)
     ext = _air(air.get("exterior"), file, "air.exterior", errors, Air())
     cab = _air(air.get("cabin"), file, "air.cabin", errors, Air(295.15, 101325.0))
-    cabin_a, cabin_bands = _cabin(data.get("cabin"), file, errors)
+    cabin_info: dict = {}
+    cabin_a, cabin_bands = _cabin(data.get("cabin"), file, errors, cabin_info)
     conditions = _conditions(data.get("condition"), file, errors)
     zone_names: list[str] = []
     zones = _zones(data.get("zone"), file, errors, zone_names)
@@ -376,6 +381,7 @@ def load_study(path) -> LoadedStudy:
                                              "date", "notes")}
     meta["catalog_entries"] = used
     meta["air"] = {"exterior": ext, "cabin": cab}
+    meta["cabin"] = cabin_info
     inputs = StudyInputs(meta["title"] or path.stem, tuple(conditions), tuple(zones),
                          tuple(packages), baseline, cabin_a, cabin_bands, convention,
                          incidence, float(theta) if theta is not None else None,
