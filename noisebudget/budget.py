@@ -256,11 +256,16 @@ def _band_tl_all(inp: StudyInputs, bands: Bands) -> dict:
     def one(s):
         return s.band_transmission_loss(bands, inp.incidence, inp.theta_max_deg)
 
+    from .progress import track
+
     workers = min(len(unique), os.cpu_count() or 1)
     if workers <= 1:
-        return {k: one(s) for k, s in unique.items()}
+        return {k: one(s) for k, s in track(unique.items(), what="transmission loss",
+                                             unit="stack")}
     with ThreadPoolExecutor(max_workers=workers) as pool:
-        return dict(zip(unique, pool.map(one, unique.values()), strict=True))
+        done = track(pool.map(one, unique.values()), len(unique), "transmission loss",
+                     "stack")
+        return dict(zip(unique, done, strict=True))
 
 
 def _a_at(f_hz):
