@@ -24,13 +24,18 @@ def report_targets(stem: str) -> list[str]:
     return [f"{stem}.pdf", f"{stem}.xlsx"]
 
 
-def write_reports(result, study_path: Path, outdir: Path, stem: str) -> list[Path]:
-    """Write ``<stem>.pdf`` and ``<stem>.xlsx`` atomically; returns their paths."""
+def write_reports(result, study_path: Path, outdir: Path, stem: str,
+                  kinds=("pdf", "xlsx")) -> list[Path]:
+    """Write ``<stem>.pdf`` and ``<stem>.xlsx`` (those named in ``kinds``) atomically;
+    returns their paths."""
     from .pdf import write_pdf
     from .workbook import write_workbook
 
-    pdf = outdir / f"{stem}.pdf"
-    xlsx = outdir / f"{stem}.xlsx"
-    write_workbook(result, xlsx)
-    write_pdf(result, study_path, pdf)
-    return [pdf, xlsx]
+    written = []
+    if "xlsx" in kinds:
+        written.append(outdir / f"{stem}.xlsx")
+        write_workbook(result, written[-1])
+    if "pdf" in kinds:
+        written.append(outdir / f"{stem}.pdf")
+        write_pdf(result, study_path, written[-1])
+    return written
