@@ -76,6 +76,13 @@ def _panels(n: int, ncols: int = 3, height: float = 2.1, sharey: bool = True):
     return fig, flat[:n]
 
 
+def _ylabel(axes, text: str):
+    """The y label on the first panel of every row."""
+    for ax in axes:
+        if ax.get_subplotspec().is_first_col():
+            ax.set_ylabel(text)
+
+
 def _legend_below(fig, handles, labels, ncol=None):
     if handles:
         fig.legend(handles, labels, loc="outside lower center",
@@ -114,7 +121,7 @@ def exterior_spectra(conditions) -> str:
         ax.set_ylim(floor, top)
         _frequency_axis(ax, lo, hi, "frequency (Hz)", every=1 if len(axes) < 3 else 2)
         ax.set_title(c["name"])
-    axes[0].set_ylabel("exterior level (dB re 20 µPa)")
+    _ylabel(axes, "exterior level (dB re 20 µPa)")
     _legend_below(fig, list(handles.values()), list(handles))
     return _svg(fig)
 
@@ -136,7 +143,7 @@ def _per_panel_lines(groups, packages, ylabel, extra=None, ncols=3):
                 (handles[label],) = ax.plot(x, y, "k--", lw=1)
         _frequency_axis(ax, lo, hi, every=1 if len(axes) < 3 else 2)
         ax.set_title(title)
-    axes[0].set_ylabel(ylabel)
+    _ylabel(axes, ylabel)
     _legend_below(fig, list(handles.values()), list(handles))
     return _svg(fig)
 

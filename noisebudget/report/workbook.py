@@ -343,7 +343,7 @@ def write_workbook(result, path: Path) -> None:
     _trade_charts(ws, m["summary"], conditions)
 
     long, styles = inputs_long(result, m["inputs"])
-    _sheet(wb, "Inputs", long, tb, row_styles=styles, widths={"item": 40, "value": 40})
+    _sheet(wb, "Inputs", long, tb, row_styles=styles, widths={"item": 36, "value": 50})
     ext = m["inputs"]["bands"]
     ws = _sheet(wb, "Exterior", ext, tb)
     from openpyxl.chart import Reference, Series
