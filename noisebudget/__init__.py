@@ -1,26 +1,66 @@
 """noisebudget: transmission loss, interior noise and mass budgets of cabin sidewall packages.
 
 Time convention ``exp(+j omega t)`` throughout; SI units inside the library.
+
+The public names load their module on first use (PEP 562), so ``import noisebudget``
+and the command line's ``--help`` and ``--version`` do not import numpy.
 """
 
-from .bands import a_weighting, c_weighting, octave_bands, third_octave_bands
-from .errors import InputError, InputErrors, ModelRangeWarning
-from .layers import AirGap, Plate, Porous, Screen, Septum, Solid
-from .media import Air, standard_atmosphere
-from .ratings import ratings
-from .stack import Stack
-from .stackfile import load_stack, parse_stack
+from __future__ import annotations
+
+import sys
+import types
+from importlib import import_module
+from typing import TYPE_CHECKING
 
 __version__ = "0.1.0"
 
+_WHERE = {  # public name -> module that defines it
+    "a_weighting": "bands", "c_weighting": "bands", "octave_bands": "bands",
+    "third_octave_bands": "bands", "InputError": "errors", "InputErrors": "errors",
+    "ModelRangeWarning": "errors", "AirGap": "layers", "Plate": "layers", "Porous": "layers",
+    "Screen": "layers", "Septum": "layers", "Solid": "layers", "Air": "media",
+    "standard_atmosphere": "media", "ratings": "ratings", "Stack": "stack",
+    "load_stack": "stackfile", "parse_stack": "stackfile", "load_study": "study",
+    "parse_study": "study", "run_study": "study",
+}
+
+if TYPE_CHECKING:  # for editors and type checkers; nothing is imported at run time
+    from .bands import a_weighting, c_weighting, octave_bands, third_octave_bands
+    from .errors import InputError, InputErrors, ModelRangeWarning
+    from .layers import AirGap, Plate, Porous, Screen, Septum, Solid
+    from .media import Air, standard_atmosphere
+    from .ratings import ratings
+    from .stack import Stack
+    from .stackfile import load_stack, parse_stack
+    from .study import load_study, parse_study, run_study
+
 
 def __getattr__(name):
-    """Study functions import pandas; load them on first use so the package imports fast."""
-    if name in ("load_study", "parse_study", "run_study"):
-        from . import study
-
-        return getattr(study, name)
+    """Load a public name's module on first use."""
+    if name in _WHERE:
+        value = getattr(import_module(f".{_WHERE[name]}", __name__), name)
+        globals()[name] = value
+        return value
     raise AttributeError(f"module 'noisebudget' has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted([*globals(), *_WHERE])
+
+
+class _Package(types.ModuleType):
+    """The package module. Loading the submodule ``noisebudget.ratings`` would bind the
+    module to the package attribute of the same name; the public name is the function."""
+
+    def __setattr__(self, name, value):
+        if name in _WHERE and isinstance(value, types.ModuleType):
+            return
+        super().__setattr__(name, value)
+
+
+sys.modules[__name__].__class__ = _Package
+
 
 __all__ = ["a_weighting", "c_weighting", "octave_bands", "ratings", "third_octave_bands",
            "Air", "AirGap", "InputError", "InputErrors", "ModelRangeWarning", "Plate",

@@ -45,6 +45,7 @@ class Condition:
     levels_db: np.ndarray
     tones_hz: np.ndarray = field(default_factory=lambda: np.empty(0))
     tone_levels_db: np.ndarray = field(default_factory=lambda: np.empty(0))
+    tone_names: tuple = ()
 
 
 @dataclass(frozen=True)
@@ -177,18 +178,20 @@ def compute_budget(inp: StudyInputs) -> StudyResult:
             inc = cond.levels_db + shift
             per_zone, _ = interior_levels(inc, tl_z[:, sel], areas, absorption[sel])
             energy = 10 ** (per_zone / 10)
-            for f_t, l_t in zip(cond.tones_hz, cond.tone_levels_db, strict=True):
+            names = cond.tone_names or tuple(f"{f:g} Hz" for f in cond.tones_hz)
+            for f_t, l_t, name in zip(cond.tones_hz, cond.tone_levels_db, names, strict=True):
                 b = cond.bands.containing([f_t])[0]
                 k = np.searchsorted(tone_f, f_t)
                 tau_t = np.array([tone_tau[id(s)][k] for s in stacks])
                 tone_z = (l_t + shift + 10 * np.log10(np.maximum(tau_t, 1e-30))
                           + 10 * np.log10(areas / absorption[sel][b]))
                 energy[:, b] += 10 ** (tone_z / 10)
-                rows_tone.append({"package": pkg.name, "condition": cond.name,
+                rows_tone.append({"package": pkg.name, "condition": cond.name, "tone": name,
                                   "tone_hz": f_t, "exterior_db": l_t,
                                   "band_hz": cond.bands.nominal[b],
                                   "tl_db": float(_composite_tl(tau_t[:, None], areas)[0]),
-                                  "interior_db": float(energy_sum(tone_z))})
+                                  "interior_db": float(energy_sum(tone_z)),
+                                  "dominant_zone": zones[int(np.argmax(tone_z))].name})
             with np.errstate(divide="ignore"):
                 per_zone = 10 * np.log10(energy)
             total = energy_sum(per_zone, axis=0)
@@ -232,9 +235,10 @@ def compute_budget(inp: StudyInputs) -> StudyResult:
     summary["dba_gain_per_kg"] = per_kg
     return StudyResult(inp, summary, pd.DataFrame(rows_band), pd.DataFrame(rows_contrib),
                        pd.DataFrame(rows_tl), pd.DataFrame(rows_mass), pd.DataFrame(rows_rat),
-                       pd.DataFrame(rows_tone, columns=["package", "condition", "tone_hz",
-                                                        "exterior_db", "band_hz", "tl_db",
-                                                        "interior_db"]))
+                       pd.DataFrame(rows_tone, columns=["package", "condition", "tone",
+                                                        "tone_hz", "exterior_db", "band_hz",
+                                                        "tl_db", "interior_db",
+                                                        "dominant_zone"]))
 
 
 def _band_tl_all(inp: StudyInputs, bands: Bands) -> dict:
@@ -252,11 +256,16 @@ def _band_tl_all(inp: StudyInputs, bands: Bands) -> dict:
     def one(s):
         return s.band_transmission_loss(bands, inp.incidence, inp.theta_max_deg)
 
+    from .progress import track
+
     workers = min(len(unique), os.cpu_count() or 1)
     if workers <= 1:
-        return {k: one(s) for k, s in unique.items()}
+        return {k: one(s) for k, s in track(unique.items(), what="transmission loss",
+                                             unit="stack")}
     with ThreadPoolExecutor(max_workers=workers) as pool:
-        return dict(zip(unique, pool.map(one, unique.values()), strict=True))
+        done = track(pool.map(one, unique.values()), len(unique), "transmission loss",
+                     "stack")
+        return dict(zip(unique, done, strict=True))
 
 
 def _a_at(f_hz):

@@ -4,19 +4,11 @@ line each on standard error and exit with status 2."""
 from __future__ import annotations
 
 import argparse
+import math
 import sys
 import warnings
 
-import numpy as np
-
 __all__ = ["main"]
-
-
-def _warning_line(message, category, filename, lineno, file=None, line=None):
-    from .errors import InputNote
-
-    word = "note" if issubclass(category, InputNote) else "warning"
-    print(f"{word}: {message}", file=sys.stderr)
 
 
 class Terminated(BaseException):
@@ -27,9 +19,17 @@ class UsageError(Exception):
     """A bad command-line option value; printed as one line, exit status 2."""
 
 
+class OneLineParser(argparse.ArgumentParser):
+    """An argument parser whose mistakes are one line (``noisebudget tl: argument
+    --fmin: ...``), exit status 2, without the multi-line usage block."""
+
+    def error(self, message):
+        raise UsageError(f"{self.prog}: {message} (see {self.prog} --help)")
+
+
 def check_number(value, option: str, low: float, high: float, what: str = "Hz") -> float:
     """A finite option value within [low, high], or a UsageError naming the option."""
-    if value is None or not np.isfinite(value):
+    if value is None or not math.isfinite(value):
         raise UsageError(f"{option}: {value} is not a finite number")
     if value <= 0 and low > 0:
         raise UsageError(f"{option}: {value:g} {what}: must be > 0")
@@ -51,22 +51,17 @@ def check_band(args, low_name="--fmin", high_name="--fmax"):
 
 
 def _grid(args):
+    import numpy as np
+
     from .bands import log_grid
     from .checks import MAX_FREQUENCIES, MAX_PER_OCTAVE, ArgumentError, frequencies
 
     if args.frequencies:
-        parts = [v.strip() for v in args.frequencies.split(",") if v.strip()]
-        if len(parts) > MAX_FREQUENCIES:
-            raise UsageError(f"--frequencies: {len(parts)} values; at most {MAX_FREQUENCIES}")
+        if len(args.frequencies) > MAX_FREQUENCIES:
+            raise UsageError(f"--frequencies: {len(args.frequencies)} values; at most "
+                             f"{MAX_FREQUENCIES}")
         try:
-            f = np.array([float(v) for v in parts])
-        except ValueError:
-            raise UsageError(f"--frequencies: not a list of numbers: "
-                             f"{args.frequencies[:60]!r}") from None
-        if f.size == 0:
-            raise UsageError("--frequencies: give at least one frequency in Hz")
-        try:
-            return frequencies(f, "--frequencies")
+            return frequencies(np.array(sorted(args.frequencies)), "--frequencies")
         except ArgumentError as exc:
             raise UsageError(str(exc)) from None
     lo, hi = check_band(args)
@@ -77,6 +72,11 @@ def _grid(args):
         raise UsageError(f"--per-octave {args.per_octave} from {lo:g} to {hi:g} Hz makes "
                          f"{count:.0f} frequencies; at most {MAX_FREQUENCIES}")
     return log_grid(lo, hi, args.per_octave)
+
+
+def _round(v, digits: int) -> float:
+    """Rounded, and never -0.0."""
+    return round(float(v), digits) + 0.0
 
 
 def _ratings_line(r) -> str:
@@ -92,7 +92,7 @@ def cmd_tl(args) -> int:
     from .incidence import default_theta_max_deg
     from .ratings import ratings
     from .stackfile import load_stack
-    from .textout import format_table
+    from .textout import fmt_number, format_table, plural
     from .writing import strict_json
 
     f = _grid(args)
@@ -113,14 +113,14 @@ def cmd_tl(args) -> int:
     if args.incidence == "normal":
         theta_max = 0.0
     tl = stack.transmission_loss(f, args.incidence, theta_max or None)
-    out = {"frequency_hz": [float(v) for v in f], "tl_db": [round(float(v), 3) for v in tl],
-           "areal_mass_kg_m2": round(stack.areal_mass, 4), "incidence": args.incidence,
+    out = {"frequency_hz": [float(v) for v in f], "tl_db": [_round(v, 3) for v in tl],
+           "areal_mass_kg_m2": _round(stack.areal_mass, 4), "incidence": args.incidence,
            "theta_max_deg": float(theta_max)}
     notes = []
     if bands is not None:
         btl = stack.band_transmission_loss(bands, args.incidence, theta_max or None)
         out["bands"] = {"nominal_hz": [float(v) for v in bands.nominal],
-                        "tl_db": [round(float(v), 2) for v in btl]}
+                        "tl_db": [_round(v, 2) for v in btl]}
         if bands.b == 3:
             r = ratings(bands.nominal, btl)
             out["ratings"] = dict(r)
@@ -130,18 +130,22 @@ def cmd_tl(args) -> int:
                           if k not in ("c", "ctr")]
     if args.format == "json":
         print(strict_json(out))
-    elif args.format == "csv":
-        print("frequency_hz,tl_db")
-        for fv, tv in zip(out["frequency_hz"], out["tl_db"], strict=True):
-            print(f"{fv:.6g},{tv:.3f}")
+    elif args.format == "csv":  # one table: the bands when asked for, else the grid
         if "bands" in out:
-            print("\nband_nominal_hz,band_tl_db")
+            print("band_nominal_hz,tl_db")
             for fv, tv in zip(out["bands"]["nominal_hz"], out["bands"]["tl_db"], strict=True):
-                print(f"{fv:g},{tv:.2f}")
+                print(f"{fv:g},{fmt_number(tv, 2)}")
+            if "ratings" in out:
+                notes.append(_ratings_line(out["ratings"]))
+        else:
+            print("frequency_hz,tl_db")
+            for fv, tv in zip(out["frequency_hz"], out["tl_db"], strict=True):
+                print(f"{fv:.6g},{fmt_number(tv, 3)}")
     else:
         angle = "" if args.incidence == "normal" else f", limit {theta_max:g} deg"
-        print(f"{args.stack}: {len(stack.layers)} layers, {stack.areal_mass:.3f} kg/m^2, "
-              f"{stack.thickness * 1000:.1f} mm; {args.incidence} incidence{angle}")
+        print(f"{args.stack}: {plural(len(stack.layers), 'layer')}, "
+              f"{stack.areal_mass:.3f} kg/m^2, {stack.thickness * 1000:.1f} mm; "
+              f"{args.incidence} incidence{angle}")
         print(format_table(["f (Hz)", "TL (dB)"], [(float(a), float(t)) for a, t in
                                                    zip(f, tl, strict=True)]))
         if "bands" in out:
@@ -153,8 +157,9 @@ def cmd_tl(args) -> int:
             print("\n" + _ratings_line(out["ratings"]))
         print("\nEstimate for laterally infinite layers: no frames, leaks or flanking, which "
               "limit measured TL, above all at high frequency. Certified tests govern.")
-    for n in notes:
-        print(f"note: {n}", file=sys.stderr)
+    if not args.quiet:
+        for n in notes:
+            print(f"note: {n}", file=sys.stderr)
     return 0
 
 
@@ -183,31 +188,50 @@ def cmd_catalog(args) -> int:
 
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser with every subcommand."""
-    p = argparse.ArgumentParser(prog="noisebudget", description=(
-        "Transmission loss, interior noise and mass budgets of cabin sidewall packages. "
-        "Results are engineering estimates; certified testing governs."))
-    sub = p.add_subparsers(dest="command", required=True)
+    from . import __version__, cli_study, cli_tile
+    from .cliargs import add_quiet, quantity, quantity_list
 
-    t = sub.add_parser("tl", help="transmission loss of a stack file")
-    t.add_argument("stack", help="stack file (TOML)")
-    t.add_argument("--incidence", choices=("normal", "field", "diffuse"), default="field")
-    t.add_argument("--theta-max", type=float, default=None, metavar="DEG",
-                   help="limit angle (default 78 for field, 90 for diffuse)")
-    t.add_argument("--fmin", type=float, default=50.0, help="lowest frequency, Hz")
-    t.add_argument("--fmax", type=float, default=10000.0, help="highest frequency, Hz")
-    t.add_argument("--per-octave", type=int, default=12, help="grid points per octave")
-    t.add_argument("--frequencies", default=None, metavar="F1,F2,...",
-                   help="explicit frequencies in Hz")
+    p = OneLineParser(prog="noisebudget", description=(
+        "Transmission loss, interior noise and mass budgets of cabin sidewall packages. "
+        "Quantities on the command line are a number in the unit each option names, or a "
+        'number with its own unit ("0.05 kHz"). Results are engineering estimates; '
+        "certified testing and the applicable airworthiness rules govern."))
+    p.add_argument("--version", action="version", version=f"noisebudget {__version__}")
+    sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    t = sub.add_parser("tl", help="transmission loss of a stack file",
+                       description="Transmission loss of a stack file, per frequency and "
+                                   "optionally per band with single-number ratings.")
+    t.add_argument("stack", help="stack file (TOML), layers from the exterior to the cabin")
+    t.add_argument("--incidence", choices=("normal", "field", "diffuse"), default="field",
+                   help="sound field on the exterior side (default field)")
+    t.add_argument("--theta-max", type=quantity("deg", "angle"), default=None,
+                   metavar="ANGLE", help="limit angle of the angle integration, deg "
+                                         "(default 78 deg for field, 90 deg for diffuse)")
+    t.add_argument("--fmin", type=quantity("Hz", "frequency"), default=50.0, metavar="FREQ",
+                   help="lowest frequency of the grid, Hz (default 50 Hz)")
+    t.add_argument("--fmax", type=quantity("Hz", "frequency"), default=10000.0,
+                   metavar="FREQ", help="highest frequency of the grid, Hz (default 10 kHz)")
+    t.add_argument("--per-octave", type=int, default=12, metavar="N",
+                   help="grid points per octave (default 12)")
+    t.add_argument("--frequencies", type=quantity_list("Hz", "frequency"), default=None,
+                   metavar="F1,F2,...", help="explicit frequencies instead of the grid, Hz "
+                                             '(e.g. 100,1000 or "100 Hz, 1 kHz"; default: '
+                                             "the grid)")
     t.add_argument("--bands", choices=("third", "octave"), default=None,
-                   help="add band values (and ratings for third octaves)")
-    t.add_argument("--format", choices=("table", "csv", "json"), default="table")
+                   help="add band values (and STC, Rw, OITC for third octaves); default none")
+    t.add_argument("--format", choices=("table", "csv", "json"), default="table",
+                   help="output on standard output (default table); csv writes one "
+                        "table: the bands when --bands is given, else the frequency grid")
+    add_quiet(t)
     t.set_defaults(func=cmd_tl)
 
-    c = sub.add_parser("catalog", help="list catalog entries or show one")
-    c.add_argument("key", nargs="?", default=None)
+    c = sub.add_parser("catalog", help="list catalog entries or show one",
+                       description="List the shipped catalog entries, or show one.")
+    c.add_argument("key", nargs="?", default=None,
+                   help="entry to show, e.g. trim.honeycomb-glass-10 (default: list all)")
+    add_quiet(c)
     c.set_defaults(func=cmd_catalog)
-    from . import cli_study, cli_tile
-
     cli_tile.register(sub)
     cli_study.register(sub)
     return p
@@ -218,19 +242,38 @@ def main(argv=None) -> int:
 
     User mistakes print one line each and return 2. SIGINT and SIGTERM print one line
     and return 130 and 143 (128 + signal number) after clean-up: no traceback, no
-    temporary file left, earlier outputs intact.
+    temporary file left, earlier outputs intact. Each warning is printed once.
     """
     import signal
+    import threading
 
     from .errors import InputNote, ModelRangeWarning
+    from .progress import configure
 
     restore = _on_sigterm_raise()
+    shown: set = set()
+    lock = threading.Lock()
+
+    def warning_line(message, category, filename, lineno, file=None, line=None):
+        text = str(message)
+        with lock:  # once per message, whichever thread or layer warns
+            if text in shown:
+                return
+            shown.add(text)
+        word = "note" if issubclass(category, InputNote) else "warning"
+        print(f"{word}: {text}", file=sys.stderr)
+
     try:
-        args = build_parser().parse_args(argv)
+        try:
+            args = build_parser().parse_args(argv)
+        except UsageError as exc:
+            print(exc, file=sys.stderr)
+            return 2
+        configure(False if getattr(args, "quiet", False) else None)
         with warnings.catch_warnings():
-            warnings.simplefilter("once", ModelRangeWarning)
-            warnings.simplefilter("default", InputNote)
-            warnings.showwarning = _warning_line
+            warnings.simplefilter("always", ModelRangeWarning)
+            warnings.simplefilter("always", InputNote)
+            warnings.showwarning = warning_line
             return _run(args)
     except KeyboardInterrupt:
         print("noisebudget: interrupted (SIGINT); no partial output left", file=sys.stderr)
@@ -239,6 +282,7 @@ def main(argv=None) -> int:
         print("noisebudget: terminated (SIGTERM); no partial output left", file=sys.stderr)
         return 128 + signal.SIGTERM
     finally:
+        configure(None)
         restore()
 
 

@@ -10,17 +10,32 @@ __all__ = ["KINDS", "output_names", "register", "write_outputs"]
 
 def register(sub):
     """Add the study subcommands to the parser."""
-    r = sub.add_parser("run", help="run a study file and write its tables and reports")
-    r.add_argument("study")
-    r.add_argument("-o", "--output", required=True, help="output folder")
-    r.add_argument("--force", action="store_true", help="replace existing reports")
+    from .cliargs import add_output_selection, add_quiet
+
+    r = sub.add_parser("run", help="run a study file and write its tables and reports",
+                       description="Run a study file; print the summary and write the CSV "
+                                   "tables, the PDF report and the workbook.")
+    r.add_argument("study", help="study file (TOML)")
+    r.add_argument("-o", "--output", required=True, metavar="FOLDER",
+                   help="output folder (created if missing)")
+    r.add_argument("--force", action="store_true", help="replace existing outputs")
+    add_output_selection(r)
+    add_quiet(r)
     r.set_defaults(func=cmd_run)
-    c = sub.add_parser("check", help="validate a study file and list every problem")
-    c.add_argument("study")
+    c = sub.add_parser("check", help="validate a study file and list every problem",
+                       description="Validate a study file and list every problem, one line "
+                                   "each; exit status 2 when there is any.")
+    c.add_argument("study", help="study file (TOML)")
+    add_quiet(c)
     c.set_defaults(func=cmd_check)
-    d = sub.add_parser("demo", help="run the built-in demo study (NB-70 turboprop)")
-    d.add_argument("-o", "--output", required=True, help="output folder")
-    d.add_argument("--force", action="store_true", help="replace existing reports")
+    d = sub.add_parser("demo", help="run the built-in demo study (NB-70 turboprop)",
+                       description="Run the built-in demo study of an invented regional "
+                                   "turboprop programme and write its outputs.")
+    d.add_argument("-o", "--output", required=True, metavar="FOLDER",
+                   help="output folder (created if missing)")
+    d.add_argument("--force", action="store_true", help="replace existing outputs")
+    add_output_selection(d)
+    add_quiet(d)
     d.set_defaults(func=cmd_demo)
 
 
@@ -61,6 +76,7 @@ def write_outputs(result, study_path: Path, outdir: Path, force: bool,
     set that this one does not contain are removed, so the folder never mixes two runs.
     """
     from .report import write_reports
+    from .textout import no_negative_zero
     from .writing import atomic_write_text, check_free, csv_text, folder_lock, staged_set
 
     kinds = _kinds(kinds)
@@ -73,7 +89,8 @@ def write_outputs(result, study_path: Path, outdir: Path, force: bool,
         with staged_set(outdir, stem, replaces=every) as stage:
             if "csv" in kinds:
                 for name, table in tables.items():
-                    atomic_write_text(stage / f"{stem}-{name}.csv", csv_text(table))
+                    atomic_write_text(stage / f"{stem}-{name}.csv",
+                                      csv_text(no_negative_zero(table, 3)))
             write_reports(result, study_path, stage, stem, kinds)
             names = sorted(p.name for p in stage.iterdir())
     return [outdir / n for n in names]
@@ -96,13 +113,20 @@ def cmd_run(args, study=None) -> int:
     The output folder is locked and checked before any computation: an existing set is
     refused (unless ``--force``) without computing anything.
     """
+    import argparse
     import time
 
+    from .cliargs import output_kinds
+    from .textout import plural
     from .writing import check_free, folder_lock
 
+    try:
+        kinds = output_kinds(args)
+    except argparse.ArgumentTypeError as exc:
+        print(f"noisebudget: {exc}", file=sys.stderr)
+        return 2
     path = Path(study or args.study)
     outdir = Path(args.output)
-    kinds = getattr(args, "kinds", None) or KINDS
     with folder_lock(outdir):
         check_free(outdir, output_names(path.stem), args.force)
         from .study import run_study
@@ -112,21 +136,23 @@ def cmd_run(args, study=None) -> int:
         t1 = time.perf_counter()
         written = write_outputs(result, path, outdir, args.force, kinds)
     _print_summary(result)
-    print(f"\ncomputed in {t1 - t0:.2f} s; wrote {len(written)} files to {args.output}",
-          file=sys.stderr)
-    print("Engineering estimates: certified testing and the applicable airworthiness, "
-          "flammability and noise-exposure rules govern.", file=sys.stderr)
+    if not args.quiet:
+        print(f"\ncomputed in {t1 - t0:.2f} s; wrote {plural(len(written), 'file')} to "
+              f"{args.output}", file=sys.stderr)
+        print("Engineering estimates: certified testing and the applicable airworthiness, "
+              "flammability and noise-exposure rules govern.", file=sys.stderr)
     return 0
 
 
 def cmd_check(args) -> int:
     """Validate only."""
     from .study import load_study
+    from .textout import plural
 
     loaded = load_study(args.study)
     inp = loaded.inputs
-    print(f"{args.study}: OK: {len(inp.packages)} packages, {len(inp.zones)} zones, "
-          f"{len(inp.conditions)} conditions")
+    print(f"{args.study}: OK: {plural(len(inp.packages), 'package')}, "
+          f"{plural(len(inp.zones), 'zone')}, {plural(len(inp.conditions), 'condition')}")
     return 0
 
 

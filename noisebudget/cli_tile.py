@@ -10,21 +10,38 @@ __all__ = ["register", "tile_toml"]
 
 def register(sub):
     """Add the `tile` subcommand to the parser."""
-    t = sub.add_parser("tile", help="analyse, tune or calibrate a resonator tile")
+    from .cliargs import add_quiet, quantity
+
+    freq = quantity("Hz", "frequency")
+    t = sub.add_parser("tile", help="analyse, tune or calibrate a resonator tile",
+                       description="TL dips and peaks of the tile in a stack file at normal "
+                                   "incidence; tune its first peak to a tone, or fit it to "
+                                   "an impedance-tube measurement.")
     t.add_argument("stack", help="stack file holding one tile layer")
-    t.add_argument("--fmin", type=float, default=10.0)
-    t.add_argument("--fmax", type=float, default=5000.0)
-    t.add_argument("--profile", type=float, default=None, metavar="F",
-                   help="print a cell's radial displacement profile at F Hz")
-    t.add_argument("--cell", type=int, default=1, help="cell kind (1-based) to tune or fit")
-    t.add_argument("--tune-peak", default=None, metavar="FREQ",
-                   help='target frequency of the first TL peak, e.g. "180Hz"')
-    t.add_argument("--vary", choices=("mass", "tension", "radius"), default="mass")
+    t.add_argument("--fmin", type=freq, default=10.0, metavar="FREQ",
+                   help="lowest frequency searched, Hz (default 10 Hz)")
+    t.add_argument("--fmax", type=freq, default=5000.0, metavar="FREQ",
+                   help="highest frequency searched, Hz (default 5 kHz)")
+    t.add_argument("--profile", type=freq, default=None, metavar="FREQ",
+                   help="print a cell's radial displacement profile at this frequency, Hz "
+                        "(default: none)")
+    t.add_argument("--cell", type=int, default=1, metavar="N",
+                   help="cell kind to profile, tune or fit, counted from 1 (default 1)")
+    t.add_argument("--tune-peak", type=freq, default=None, metavar="FREQ",
+                   help='target frequency of the first TL peak, Hz (e.g. 112 or "112 Hz"); '
+                        "writes a tuned stack file (default: no tuning)")
+    t.add_argument("--vary", choices=("mass", "tension", "radius"), default="mass",
+                   help="cell parameter that --tune-peak changes (default mass)")
     t.add_argument("--fit", default=None, metavar="MEASURED.csv",
-                   help="fit tension and loss factor to a tube TL (frequency_hz,tl_db)")
-    t.add_argument("--fit-mass", action="store_true", help="fit the central mass too")
-    t.add_argument("-o", "--output", default=None, help="file for the tuned or fitted tile")
+                   help="fit tension and loss factor to a tube TL file with the header "
+                        "frequency_hz,tl_db; writes a fitted stack file (default: no fit)")
+    t.add_argument("--fit-mass", action="store_true",
+                   help="with --fit: fit the central mass too")
+    t.add_argument("-o", "--output", default=None, metavar="FILE",
+                   help="file for the tuned or fitted tile (default <stack>-tuned.toml or "
+                        "<stack>-fitted.toml beside the input)")
     t.add_argument("--force", action="store_true", help="replace an existing output file")
+    add_quiet(t)
     t.set_defaults(func=cmd_tile)
 
 
@@ -145,9 +162,8 @@ def cmd_tile(args) -> int:
     from .cli import check_band, check_number
     from .errors import InputError
     from .stackfile import load_stack
-    from .textout import format_table
+    from .textout import format_table, plural
     from .tiles import TuningError, fit_tile, mass_law_tl, tile_extrema, tune_peak
-    from .units import parse_quantity
 
     path = Path(args.stack)
     fmin, fmax = check_band(args)
@@ -162,8 +178,7 @@ def cmd_tile(args) -> int:
                                               f"{len(tile.cells)}")
     out_note = None
     if args.tune_peak:
-        target = parse_quantity(args.tune_peak.replace("Hz", " Hz").replace("  ", " "),
-                                "frequency", "", "--tune-peak")
+        target = args.tune_peak
         check_number(target, "--tune-peak", MIN_FREQUENCY_HZ, MAX_FREQUENCY_HZ)
         try:
             tile, value = tune_peak(tile, target, args.vary, cell, air)
@@ -191,7 +206,8 @@ def cmd_tile(args) -> int:
     ext = tile_extrema(tile, fmin, fmax, air)
     m = tile.areal_mass
     print(f"\n{path}: tile, {tile.frame} grid, pitch {tile.pitch * 1e3:g} mm, "
-          f"{len(tile.cells)} cell kind(s), areal mass {m:.3f} kg/m^2 (normal incidence)")
+          f"{plural(len(tile.cells), 'cell kind')}, areal mass {m:.3f} kg/m^2 "
+          "(normal incidence)")
     print(format_table(["TL dip (Hz)", "TL (dB)"], list(zip(ext.dip_hz, ext.dip_db,
                                                             strict=True))))
     if ext.peak_hz.size:
@@ -218,5 +234,6 @@ def cmd_tile(args) -> int:
                                                                     if args.tune_peak else
                                                                     f"{path.stem}-fitted.toml")
         _write_new(out, tile_toml(tile, out_note), path, args.force)
-        print(f"\nwrote {out}", file=sys.stderr)
+        if not args.quiet:
+            print(f"\nwrote {out}", file=sys.stderr)
     return 0

@@ -181,7 +181,7 @@ def _conditions(entries, reader):
         if "bands_hz" not in v:
             continue
         bands = v["bands_hz"]
-        tones_f, tones_l, ok = [], [], True
+        tones_f, tones_l, tones_n, ok = [], [], [], True
         for j, t in _valid(v.get("tone", [])):
             if "frequency" not in t or "level_db" not in t:
                 ok = False
@@ -194,9 +194,10 @@ def _conditions(entries, reader):
                 continue
             tones_f.append(t["frequency"])
             tones_l.append(t["level_db"])
+            tones_n.append(t.get("name") or f"{t['frequency']:g} Hz")
         if ok and "levels_db" in v and "name" in v and not v.bad:
             out.append(Condition(v["name"], bands, np.array(v["levels_db"]),
-                                 np.array(tones_f), np.array(tones_l)))
+                                 np.array(tones_f), np.array(tones_l), tuple(tones_n)))
     return out
 
 
@@ -343,6 +344,12 @@ def parse_study(data: dict, file: str = "", base_dir=None) -> LoadedStudy:
                                              "date", "notes")}
     meta["catalog_entries"] = used
     meta["air"] = {"exterior": ext, "cabin": cab}
+    cabin = v.get("cabin") or {}
+    meta["cabin"] = {"volume_m3": cabin.get("volume"),
+                     "absorption_given": next((k for k in ("absorption_area",
+                                                           "reverberation_time",
+                                                           "mean_absorption") if k in cabin),
+                                              "")}
     title = meta["title"] or (Path(file).stem if file else "study")
     inputs = StudyInputs(title, tuple(conditions), tuple(zones), tuple(packages), baseline,
                          cabin_a, cabin_bands, st["exterior_level"], st["incidence"],

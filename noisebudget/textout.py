@@ -1,15 +1,33 @@
-"""Plain-text tables for the terminal."""
+"""Plain text for the terminal and the CSV files: tables, numbers, plurals."""
 
 from __future__ import annotations
 
-__all__ = ["format_table", "fmt_number"]
+__all__ = ["fmt_number", "format_table", "no_negative_zero", "plural"]
 
 
 def fmt_number(v, digits: int = 1) -> str:
-    """A number for a table: fixed decimals for floats, as-is for the rest."""
+    """A number for a table: fixed decimals for floats (never "-0.0"), as-is for the rest."""
     if isinstance(v, float):
-        return f"{v:.{digits}f}"
+        text = f"{v:.{digits}f}"
+        if text.startswith("-") and float(text) == 0:
+            text = text[1:]
+        return text
     return str(v)
+
+
+def plural(n: int, word: str, many: str | None = None) -> str:
+    """``1 condition``, ``2 conditions``; ``many`` for an irregular plural."""
+    return f"{n} {word if n == 1 else (many or word + 's')}"
+
+
+def no_negative_zero(df, digits: int):
+    """A copy of a DataFrame whose float values that round to zero at ``digits``
+    decimals are exactly 0.0, so no "-0.000" is written."""
+    out = df.copy()
+    for col in out.select_dtypes("float").columns:
+        v = out[col]
+        out[col] = v.mask(v.abs() < 0.5 * 10.0**-digits, 0.0)
+    return out
 
 
 def format_table(headers, rows, digits=1) -> str:

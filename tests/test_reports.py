@@ -1,6 +1,13 @@
-"""The design-review PDF and the workbook: content, read-back, inert user text, atomicity."""
+"""The design-review PDF: inputs, tones, per-zone ratings and mass, figures for every
+condition and zone, one caution; read back from the HTML before rendering and from the
+PDF's text. Also inert user text, the restricted fetcher and atomic writes."""
 
+import base64
+import math
+import re
 import shutil
+import tomllib
+from html.parser import HTMLParser
 
 import openpyxl
 import pytest
@@ -11,91 +18,250 @@ from noisebudget.cli import main
 from noisebudget.resources import data_path
 from noisebudget.writing import atomic_write_bytes
 
-DEMO = data_path("examples", "demo-study.toml")
+
+class _Tables(HTMLParser):
+    """Every <table> of an HTML text as a list of rows of cell texts."""
+
+    def __init__(self):
+        super().__init__()
+        self.tables, self._row, self._cell = [], None, None
+
+    def handle_starttag(self, tag, attrs):
+        if tag == "table":
+            self.tables.append([])
+        elif tag == "tr":
+            self._row = []
+        elif tag in ("td", "th"):
+            self._cell = ""
+
+    def handle_endtag(self, tag):
+        if tag in ("td", "th") and self._row is not None:
+            self._row.append(self._cell.strip())
+            self._cell = None
+        elif tag == "tr" and self._row is not None:
+            self.tables[-1].append(self._row)
+            self._row = None
+
+    def handle_data(self, data):
+        if self._cell is not None:
+            self._cell += data
 
 
-@pytest.fixture(scope="module")
-def demo_out(tmp_path_factory):
-    out = tmp_path_factory.mktemp("demo")
-    assert main(["demo", "-o", str(out)]) == 0
+def tables_of(html):
+    p = _Tables()
+    p.feed(html)
+    return p.tables
+
+
+def table_with(tables, first_header, also=None):
+    """The table whose header row starts with ``first_header`` (and holds ``also``)."""
+    for t in tables:
+        if t and t[0] and t[0][0] == first_header and (also is None or also in t[0]):
+            return t
+    raise AssertionError(f"no table headed {first_header!r} / {also!r}")
+
+
+def filled(rows, n):
+    """Rows with the first ``n`` blank cells filled from the row above (grouped tables)."""
+    out, prev = [], None
+    for r in rows:
+        r = list(r)
+        for j in range(n):
+            if r[j] == "" and prev is not None:
+                r[j] = prev[j]
+        out.append(r)
+        prev = r
     return out
 
 
-def test_pdf_holds_every_package_and_dba(demo_out):
-    text = "\n".join(p.extract_text() for p in PdfReader(demo_out / "demo-study.pdf").pages)
-    res = nb.run_study(DEMO)
-    for name in res.summary["package"].unique():
-        assert name in text
-    for v in res.summary["interior_dba"]:
-        assert f"{v:.1f}" in text
-    for section in ("Summary", "Transmission loss", "Interior spectra", "Zone contributions",
-                    "Resonator tiles", "Interior band levels", "Packages and stacks",
-                    "Assumptions and conventions", "Cautions", "References", "SHA-256",
-                    "ASTM E90", "licensed", "flammability", "gain over mass law"):
-        assert section.lower() in text.lower(), section
-    assert 6 <= len(PdfReader(demo_out / "demo-study.pdf").pages) <= 30
-
-
-def test_workbook_reads_back_equal(demo_out):
-    wb = openpyxl.load_workbook(demo_out / "demo-study.xlsx")
-    assert wb.sheetnames == ["Summary", "Bands", "TL", "Mass", "Inputs", "Sources", "Cautions"]
-    res = nb.run_study(DEMO)
-    ws = wb["Summary"]
-    header = [c.value for c in ws[1]]
-    assert "interior dBA" in header and "added mass (kg)" in header
-    # every cell of the Summary equals the result table, matched by (package, condition)
-    table = res.summary.set_index(["package", "condition"])
-    from noisebudget.report.workbook import HEADERS
-    column_of = {HEADERS.get(c, c): c for c in res.summary.columns}
-    for row in ws.iter_rows(min_row=2, values_only=True):
-        record = dict(zip(header, row, strict=True))
-        expected = table.loc[(record["package"], record["condition"])]
-        for head, value in record.items():
-            col = column_of[head]
-            if col in ("package", "condition"):
-                continue
-            want = expected[col]
-            if want != want:  # NaN is written as an empty cell
-                assert value is None
-            else:
-                assert value == pytest.approx(want, abs=1e-9), head
-    assert ws.max_row - 1 == len(res.summary)
-    tl = wb["TL"]
-    tl_table = res.tl.set_index(["package", "zone", "band_hz"])["tl_db"]
-    for package, zone, band, value in tl.iter_rows(min_row=2, values_only=True):
-        assert value == pytest.approx(tl_table.loc[(package, zone, band)], abs=1e-9)
-    # chart series point at the rows they are named after (study order kept)
-    chart = tl._charts[0]
-    first = chart.series[0].yVal.numRef.f  # e.g. 'TL'!$D$2:$D$22
-    lo = int(first.split(":")[0].split("$")[-1])
-    assert tl.cell(row=lo, column=2).value == "sidewall"
-    assert tl.cell(row=lo, column=1).value == "baseline"
-    assert ws.freeze_panes == "A2"
-    assert len(wb["Summary"]._charts) == 1 and len(wb["Bands"]._charts) == 1
-    assert len(wb["TL"]._charts) == 1
-
-
-def test_user_text_renders_inert(tmp_path):
-    study = tmp_path / "evil.toml"
-    text = DEMO.read_text().replace(
-        'title = "NB-70 forward cabin sidewall treatment trade"',
-        'title = "=HYPERLINK(\\"x\\") <b>bold</b> <img src=\\"file:///etc/passwd\\">"')
-    text = text.replace('author = "Cabin acoustics, demo"', 'author = "@SUM(A1:A2)"')
-    study.write_text(text)
-    out = tmp_path / "out"
-    assert main(["run", str(study), "-o", str(out)]) == 0
+@pytest.fixture(scope="module")
+def html(demo_result, demo_study):
     from noisebudget.report.pdf import render_html
-    html = render_html(nb.run_study(study), study)
-    import re
+
+    return render_html(demo_result, demo_study)
+
+
+@pytest.fixture(scope="module")
+def demo_toml(demo_study):
+    return tomllib.loads(demo_study.read_text())
+
+
+@pytest.fixture(scope="module")
+def pdf_text(demo_out):
+    pages = PdfReader(demo_out / "demo-study.pdf").pages
+    return " ".join(" ".join(p.extract_text() for p in pages).split()), len(pages)
+
+
+def test_pdf_sections_and_one_aviation_caution(pdf_text, demo_result):
+    text, pages = pdf_text
+    for name in demo_result.summary["package"].unique():
+        assert name in text
+    for v in demo_result.summary["interior_dba"]:
+        assert f"{v:.1f}" in text
+    for section in ("Summary", "Inputs", "Exterior spectra and tones", "Zones", "Tones",
+                    "Ratings and mass per zone", "Transmission loss", "Interior spectra",
+                    "Contributions", "Resonator tiles", "Interior band levels",
+                    "Packages and stacks", "Assumptions and conventions", "References",
+                    "SHA-256", "input hash", "gain over mass law"):
+        assert section.lower() in text.lower(), section
+    assert text.count("Caution.") == 1  # one caution block, not repeated
+    for words in ("airworthiness", "14 CFR Part 25", "flammability", "noise-exposure",
+                  "Licensed engineering practice"):
+        assert words in text, words
+    assert "local codes" not in text  # building-regulation wording
+    assert not re.search(r"(?<![\w.])-0\.0+(?!\d*[1-9])", text)  # no negative zero
+    assert 6 <= pages <= 30
+
+
+def test_inputs_section_shows_the_study_file(html, demo_toml):
+    """Inputs as given in the study file (read here with tomllib, not the project)."""
+    tables = tables_of(html)
+    bands = table_with(tables, "band (Hz)", "cruise exterior (dB)")
+    head = bands[0]
+    rows = {float(r[0]): r for r in bands[1:]}
+    t60 = [float(v.split()[0]) for v in demo_toml["cabin"]["reverberation_time"]]
+    for k, b in enumerate(demo_toml["cabin"]["bands_hz"]):
+        assert float(rows[b][head.index("reverberation time (s)")]) == pytest.approx(
+            t60[k], abs=0.005)
+    for c in demo_toml["condition"]:
+        col = head.index(f"{c['name']} exterior (dB)")
+        for b, lv in zip(c["bands_hz"], c["levels_db"], strict=True):
+            assert float(rows[b][col]) == pytest.approx(lv, abs=0.05)
+    tones = filled(table_with(tables, "condition", "tone frequency (Hz)")[1:], 1)
+    given = [(c["name"], t["name"], float(t["frequency"].split()[0]), float(t["level_db"]))
+             for c in demo_toml["condition"] for t in c["tone"]]
+    assert [(r[0], r[1], float(r[2]), float(r[3])) for r in tones] == given
+    zones = table_with(tables, "name", "area (m²)")
+    assert [(r[0], float(r[1])) for r in zones[1:]] == [
+        (z["name"], float(z["area"].split()[0])) for z in demo_toml["zone"]]
+    assert "95.0 m³" in html and "reverberation time" in html
+    air = {r[0]: r for r in table_with(tables, "air", "temperature (°C)")[1:]}
+    assert float(air["cabin"][1]) == pytest.approx(22.0, abs=0.05)
+    # 25,000 ft in the ISA: T = 288.15 K - 6.5 K/km * 7.62 km, p = 101.325 kPa
+    # (T / 288.15 K)^5.25588 (ICAO Doc 7488), computed from those formulas
+    t = 288.15 - 0.0065 * 7620.0
+    assert float(air["exterior"][1]) == pytest.approx(t - 273.15, abs=0.05)
+    assert float(air["exterior"][2]) == pytest.approx(101.325 * (t / 288.15) ** 5.25588,
+                                                      abs=0.01)
+    targets = {r[0]: r[1] for t in tables for r in t if len(r) == 2}
+    assert targets["interior level"] == "84.0 dBA"
+    assert targets["speech interference level SIL4"] == "60.0 dB"
+
+
+def test_tone_table(html, demo_result, demo_toml):
+    rows = filled(table_with(tables_of(html), "condition", "TL at the tone (dB)")[1:], 4)
+    tones = demo_result.tones
+    assert len(rows) == len(tones)
+    by_key = {(r["condition"], r["tone"], r["package"]): r for _, r in tones.iterrows()}
+    # a tone's interior level in the reverberant field (ISO 10140-2 relation with Sabine's
+    # A = 0.161 V / T): L_int = L_surface - 6.02 dB - TL_composite + 10 lg(S_total / A),
+    # with the cabin of the study file
+    volume = 95.0
+    t60 = dict(zip(demo_toml["cabin"]["bands_hz"], [float(v.split()[0]) for v in
+                                                     demo_toml["cabin"]["reverberation_time"]],
+                   strict=True))
+    area = sum(float(z["area"].split()[0]) for z in demo_toml["zone"])
+    for cond, tone, freq, ext, pkg, tl, interior, dominant in rows:
+        r = by_key[(cond, tone, pkg)]
+        assert float(freq) == pytest.approx(r["tone_hz"], abs=0.05)
+        assert float(tl) == pytest.approx(r["tl_db"], abs=0.05)
+        assert float(interior) == pytest.approx(r["interior_db"], abs=0.05)
+        assert dominant == r["dominant_zone"]
+        a = 0.161 * volume / t60[r["band_hz"]]
+        expected = float(ext) - 20 * math.log10(2) - float(tl) + 10 * math.log10(area / a)
+        assert float(interior) == pytest.approx(expected, abs=0.11)
+
+
+def test_ratings_and_mass_per_zone(html, demo_result):
+    zone_t = table_with(tables_of(html), "package", "OITC")
+    head = zone_t[0]
+    rows = filled(zone_t[1:], 1)
+    rat = demo_result.ratings.set_index(["package", "zone"])
+    mass = demo_result.mass
+    seen = set()
+    for r in rows:
+        pkg, zone = r[0], r[1]
+        seen.add((pkg, zone))
+        if zone == "all zones":
+            m = mass[mass["package"] == pkg]
+            assert float(r[head.index("mass per aircraft (kg)")]) == pytest.approx(
+                m["mass_kg"].sum(), abs=0.05)
+            assert float(r[head.index("area (m²)")]) == pytest.approx(114.5, abs=0.05)
+            continue
+        want = rat.loc[(pkg, zone)]
+        for key, col in (("stc", "STC"), ("rw", "Rw (dB)"), ("c", "C (dB)"),
+                         ("ctr", "Ctr (dB)"), ("oitc", "OITC")):
+            assert int(r[head.index(col)]) == want[key], (pkg, zone, key)
+    assert seen == {(p, z) for p in demo_result.summary["package"].unique()
+                    for z in ("sidewall", "windows", "crown", "all zones")}
+    summary = table_with(tables_of(html), "condition", "added mass (kg)")
+    assert "STC" not in summary[0] and "Rw (dB)" not in summary[0]  # no package-wide label
+
+
+def _svgs(html):
+    return [base64.b64decode(u).decode() for u in
+            re.findall(r'src="data:image/svg\+xml;base64,([^"]+)"', html)]
+
+
+def test_figures_cover_every_condition_and_zone(html):
+    svgs = _svgs(html)
+    def with_text(*words):
+        return [s for s in svgs if all(f">{w}<" in s for w in words)]
+    assert with_text("sidewall", "windows", "crown", "transmission loss (dB)")
+    assert with_text("cruise", "climb", "interior level (dB re 20 µPa)")
+    assert with_text("cruise", "climb", "exterior level (dB re 20 µPa)", "BPF", "2 BPF")
+    assert with_text("cruise", "climb", "interior level (dBA)", "BPF tiles")  # trade
+    assert with_text("cruise", "climb", "share of interior A-weighted energy (%)")
+    tile = with_text("effective surface mass, real part (kg/m²)")
+    assert tile and all("sign(m)" not in s and "lg(1" not in s for s in svgs)
+    drawings = with_text("material", "exterior", "cabin")
+    assert len(drawings) == 8  # the distinct stacks of the demo, each with its key
+    assert all(">trim / sandwich<" in d for d in drawings if ">tile<" in d)
+
+
+def test_layer_families():
+    from noisebudget.report.model import layer_family
+
+    stack = nb.load_stack(data_path("examples", "sidewall.toml"))
+    families = [layer_family(layer, label) for layer, label in
+                zip(stack.layers, stack.labels, strict=True)]
+    assert families == ["skin / plate", "porous", "septum", "air", "trim / sandwich"]
+
+
+def test_number_text_never_negative_zero():
+    from noisebudget.report.model import fmt
+    from noisebudget.textout import fmt_number
+
+    assert fmt(-0.04, "0.0") == "0.0" and fmt(-0.0, "0.00") == "0.00"
+    assert fmt(-0.06, "0.0") == "-0.1" and fmt(0.03, "0.0#") == "0.03"
+    assert fmt(40000.0, "3sf") == "40000" and fmt(9.6, "3sf") == "9.60"
+    assert fmt(0.0001, "3sf") == "0.0001" and fmt(None) == "-"
+    assert fmt_number(-0.0004, 3) == "0.000" and fmt_number(-1.25, 1) == "-1.2"
+
+
+def test_user_text_renders_inert(tmp_path, demo_study):
+    study = tmp_path / "evil.toml"
+    text = demo_study.read_text().replace(
+        'title = "NB-70 forward cabin sidewall treatment trade"',
+        'title = "=HYPERLINK(\\"x\\") <b>bold</b> <img src=\\"file:///etc/passwd\\"> $x^2$"')
+    text = text.replace('author = "Cabin acoustics, demo"', 'author = "@SUM(A1:A2)"')
+    text = text.replace('name = "septum"', 'name = "=1+1 $\\\\alpha$"')
+    study.write_text(text)
+    from noisebudget.report.pdf import render_html
+    from noisebudget.report.workbook import write_workbook
+
+    result = nb.run_study(study)
+    html = render_html(result, study)
     assert "&lt;img src=" in html and "<b>bold</b>" not in html
     sources = re.findall(r'<img src="([^"]*)"', html)
     assert sources and all(s.startswith("data:image/svg+xml;base64,") for s in sources)
-    pdf_text = PdfReader(out / "evil.pdf").pages[0].extract_text()
-    assert "root:" not in pdf_text  # nothing of /etc/passwd
-    wb = openpyxl.load_workbook(out / "evil.xlsx")
-    cells = [c for row in wb["Inputs"].iter_rows() for c in row] + \
-        [c for row in wb["Summary"].iter_rows() for c in row]
+    assert any(">=1+1 $\\alpha$<" in s for s in _svgs(html))  # drawn as typed, no markup
+    write_workbook(result, tmp_path / "evil.xlsx")
+    wb = openpyxl.load_workbook(tmp_path / "evil.xlsx")
+    cells = [c for ws in wb.worksheets for row in ws.iter_rows() for c in row]
     assert all(c.data_type != "f" for c in cells)
+    assert wb["Summary"]["A1"].value.startswith("=HYPERLINK")
+    assert "=1+1 $\\alpha$" in [c.value for c in wb["Summary"]["B"]]
 
 
 def test_fetcher_refuses_outside_files():
@@ -128,5 +294,39 @@ def test_reports_not_overwritten_without_force(demo_out, tmp_path):
     out = tmp_path / "o"
     shutil.copytree(demo_out, out)
     before = (out / "demo-study.pdf").read_bytes()
-    assert main(["demo", "-o", str(out)]) == 2
+    assert main(["demo", "-o", str(out), "-q"]) == 2
     assert (out / "demo-study.pdf").read_bytes() == before
+
+
+def test_inputs_a_later_budget_adds_are_shown(demo_result):
+    """Fields the study's inputs gain (zone offsets, interior sources) appear in the
+    inputs without a change to the report."""
+    import dataclasses
+
+    import numpy as np
+
+    from noisebudget.budget import StudyInputs, Zone
+    from noisebudget.report.model import fmt, inputs_model
+
+    Offset = dataclasses.make_dataclass(
+        "Offset", [("exterior_offset_db", np.ndarray), ("flanking_tl_db", float)],
+        bases=(Zone,), frozen=True)
+    Source = dataclasses.make_dataclass(
+        "Source", [("name", str), ("bands_hz", tuple), ("levels_db", tuple)], frozen=True)
+    Inputs = dataclasses.make_dataclass("Inputs", [("interior_sources", tuple, ())],
+                                        bases=(StudyInputs,), frozen=True)
+    inp = demo_result.inputs
+    zones = tuple(Offset(z.name, z.area, np.array([2.0, 3.5]), 55.0) for z in inp.zones)
+    values = {f.name: getattr(inp, f.name) for f in dataclasses.fields(inp)}
+    values["zones"] = zones
+    extended = Inputs(**values, interior_sources=(Source("galley fan", (500, 630),
+                                                         (61.0, 58.5)),))
+    m = inputs_model(dataclasses.replace(demo_result, inputs=extended))
+    heads = [c.header for c in m["zones"].columns]
+    assert "exterior offset (dB)" in heads and "flanking TL (dB)" in heads
+    row = m["zones"].rows[0]
+    assert row[heads.index("exterior offset (dB)")] == "2.00, 3.50"
+    assert fmt(row[heads.index("flanking TL (dB)")], "0.0") == "55.0"
+    (name, table), = m["extra"]
+    assert name == "interior sources"
+    assert table.rows[0][0] == "galley fan" and table.rows[0][2] == "61.0, 58.5"

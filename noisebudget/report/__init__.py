@@ -7,15 +7,17 @@ from pathlib import Path
 __all__ = ["CAUTIONS", "REPORT_KINDS", "report_targets", "write_reports"]
 
 CAUTIONS = (
-    "Every number in this report is an engineering estimate from idealised models "
-    "(laterally infinite flat layers; no frames, stringers, curvature, leaks, flanking or "
-    "structure-borne paths).",
-    "Certified laboratory and flight testing decide: ASTM E90 / ISO 10140 for transmission "
-    "loss, ASTM E2611 for impedance-tube samples, and in-flight surveys for cabin levels.",
-    "Airworthiness requirements, cabin-material flammability rules (e.g. 14 CFR 25.853 and "
-    "25.856) and occupational noise-exposure rules, and local codes, govern any design.",
-    "Licensed practice decides; this report supports, and does not replace, engineering "
-    "judgement and certification.",
+    "Every figure in this report is an engineering estimate from idealised models: "
+    "laterally infinite flat layers; frames, stringers, fuselage curvature and "
+    "structure-borne paths are not modelled, and leaks and flanking only as far as the "
+    "study lists them.",
+    "Transmission-loss tests of representative panels and ground and flight surveys of the "
+    "cabin decide the values a programme flies with.",
+    "Certification under the applicable airworthiness requirements (such as 14 CFR Part 25 "
+    "or CS-25) governs, as do the cabin-material flammability rules (such as 14 CFR 25.853 "
+    "and 25.856) and the noise-exposure rules that apply to crew and passengers.",
+    "Licensed engineering practice decides; this report supports that judgement and does "
+    "not replace it.",
 )
 
 

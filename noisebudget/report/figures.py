@@ -1,14 +1,25 @@
-"""Figures for the report as SVG text (matplotlib, Agg backend)."""
+"""Figures for the report as SVG text (matplotlib, Agg backend).
+
+Every function takes plain tables or arrays from :mod:`noisebudget.report.model` and
+draws; none computes acoustics. Many conditions or zones become small multiples (one
+panel each, shared legend); legends sit outside the data; axes say what they show in
+words, with units. User text (package, zone, condition names) is drawn as plain text:
+``text.parse_math`` is off, so a ``$`` in a name is never read as markup.
+"""
 
 from __future__ import annotations
 
 import io
+import math
 import re
 
 import numpy as np
 
-__all__ = ["contribution_bars", "interior_spectra", "pareto_front", "tile_mass_figure",
-           "tl_figure", "trade_plot"]
+__all__ = ["cross_section", "exterior_spectra", "interior_spectra", "pareto_front",
+           "share_bars", "tile_curves", "tl_spectra", "trade_plot"]
+
+WIDTH = 7.2  # inches: the PDF's text width
+_TICKS = (31.5, 63, 125, 250, 500, 1000, 2000, 4000, 8000, 16000)
 
 
 def _plt():
@@ -20,8 +31,9 @@ def _plt():
     # text stays text in the SVG (searchable, small, fast to render); DejaVu ships with
     # matplotlib and is on the machine for weasyprint
     plt.rcParams.update({"svg.fonttype": "none", "font.family": "DejaVu Sans",
-                         "font.size": 8, "axes.grid": True, "grid.alpha": 0.3})
-    plt.rcParams["text.parse_math"] = False  # user names are text, never math markup
+                         "font.size": 7.5, "axes.grid": True, "grid.alpha": 0.3,
+                         "axes.titlesize": 8, "legend.fontsize": 7, "legend.frameon": False,
+                         "text.parse_math": False, "axes.formatter.use_mathtext": False})
     return plt
 
 
@@ -35,45 +47,154 @@ def _svg(fig) -> str:
     return re.sub(r"<!--.*?-->", "", text[text.index("<svg"):], flags=re.S)
 
 
-def _log_axis(ax, bands, sparse=False):
+def _hz(v: float) -> str:
+    return f"{v / 1000:g}k" if v >= 1000 else f"{v:g}"
+
+
+def _frequency_axis(ax, lo: float, hi: float, label: str = "one-third-octave band (Hz)",
+                    every: int = 1):
+    """Log frequency axis with plain tick labels (63, 125, ..., 1k, 2k)."""
     ax.set_xscale("log")
-    marks = (125, 500, 2000) if sparse else (63, 125, 250, 500, 1000, 2000, 4000, 8000)
-    ticks = [b for b in bands if b in marks]
+    ticks = [t for t in _TICKS if lo * 0.99 <= t <= hi * 1.01][::every]
     ax.set_xticks(ticks)
-    ax.set_xticklabels([f"{t:g}" for t in ticks])
+    ax.set_xticklabels([_hz(t) for t in ticks])
     ax.minorticks_off()
-    ax.set_xlabel("one-third-octave band (Hz)")
+    ax.set_xlim(lo / 1.15, hi * 1.15)
+    ax.set_xlabel(label)
 
 
-def tl_figure(tl, packages) -> str:
-    """Composite and per-zone TL per package against frequency."""
+def _panels(n: int, ncols: int = 3, height: float = 2.1, sharey: bool = True):
+    """A grid of ``n`` panels (small multiples) filling the text width."""
     plt = _plt()
-    zones = list(dict.fromkeys(tl["zone"]))
-    fig, axes = plt.subplots(1, len(zones), figsize=(7.2, 2.6), sharey=True, squeeze=False)
-    for ax, zone in zip(axes[0], zones, strict=True):
-        for p in packages:
-            d = tl[(tl["package"] == p) & (tl["zone"] == zone)]
-            ax.plot(d["band_hz"], d["tl_db"], marker=".", lw=1, label=p)
-        _log_axis(ax, d["band_hz"].tolist(), sparse=len(zones) > 1)
-        ax.set_title(zone)
-    axes[0][0].set_ylabel("TL (dB)")
-    axes[0][-1].legend(fontsize=6)
+    ncols = max(1, min(n, ncols))
+    nrows = math.ceil(n / ncols)
+    fig, axes = plt.subplots(nrows, ncols, figsize=(WIDTH, height * nrows + 0.45),
+                             sharey=sharey, squeeze=False, layout="constrained")
+    flat = list(axes.ravel())
+    for ax in flat[n:]:
+        ax.set_visible(False)
+    return fig, flat[:n]
+
+
+def _ylabel(axes, text: str):
+    """The y label on the first panel of every row."""
+    for ax in axes:
+        if ax.get_subplotspec().is_first_col():
+            ax.set_ylabel(text)
+
+
+def _legend_below(fig, handles, labels, ncol=None):
+    if handles:
+        fig.legend(handles, labels, loc="outside lower center",
+                   ncol=ncol or min(len(labels), 5))
+
+
+def colours(names) -> dict:
+    """A fixed colour per name, in the order given (the workbook uses the same)."""
+    from .model import colours as hex_colours
+
+    return {n: "#" + c for n, c in hex_colours(names).items()}
+
+
+def exterior_spectra(conditions) -> str:
+    """Exterior one-third-octave levels and tones, one panel per condition.
+
+    ``conditions``: list of dicts with ``name``, ``band_hz``, ``level_db`` and ``tones``
+    (a list of ``(name, frequency_hz, level_db)``).
+    """
+    fig, axes = _panels(len(conditions), ncols=2)
+    lo = min(min(c["band_hz"]) for c in conditions)
+    hi = max(max(c["band_hz"]) for c in conditions)
+    levels = np.concatenate([np.concatenate([c["level_db"], [t[2] for t in c["tones"]]])
+                             for c in conditions])
+    floor, top = float(levels.min()) - 8, float(levels.max()) + 5
+    handles = {}
+    for ax, c in zip(axes, conditions, strict=True):
+        (h,) = ax.plot(c["band_hz"], c["level_db"], marker=".", lw=1, color="#335")
+        handles["one-third-octave band level"] = h
+        for name, f, lv in c["tones"]:
+            h = ax.vlines(f, floor, lv, color="#c33", lw=1.2)
+            ax.plot([f], [lv], "v", color="#c33", ms=4)
+            ax.annotate(name, (f, lv), xytext=(3, 2), textcoords="offset points",
+                        fontsize=6.5, color="#822")
+            handles["tone (level of the tone alone)"] = h
+        ax.set_ylim(floor, top)
+        _frequency_axis(ax, lo, hi, "frequency (Hz)", every=1 if len(axes) < 3 else 2)
+        ax.set_title(c["name"])
+    _ylabel(axes, "exterior level (dB re 20 µPa)")
+    _legend_below(fig, list(handles.values()), list(handles))
     return _svg(fig)
 
 
-def interior_spectra(bands, condition, packages, limit=None) -> str:
-    """Interior one-third-octave spectrum per package for one condition."""
-    plt = _plt()
-    fig, ax = plt.subplots(figsize=(7.2, 2.8))
-    for p in packages:
-        d = bands[(bands["package"] == p) & (bands["condition"] == condition)]
-        ax.plot(d["band_hz"], d["interior_db"], marker=".", lw=1, label=p)
-    if limit:
-        ax.plot(limit[0], limit[1], "k--", lw=1.2, label="target limit")
-    _log_axis(ax, d["band_hz"].tolist())
-    ax.set_ylabel("interior level (dB re 20 uPa)")
-    ax.set_title(f"Interior spectrum, {condition}")
-    ax.legend(fontsize=6)
+def _per_panel_lines(groups, packages, ylabel, extra=None, ncols=3):
+    """Small multiples: one panel per ``(title, {package: (x, y)})`` group."""
+    fig, axes = _panels(len(groups), ncols=ncols)
+    col = colours(packages)
+    lo = min(min(x) for _, lines in groups for x, _ in lines.values())
+    hi = max(max(x) for _, lines in groups for x, _ in lines.values())
+    handles = {}
+    for k, (ax, (title, lines)) in enumerate(zip(axes, groups, strict=True)):
+        for p in packages:
+            if p in lines:
+                x, y = lines[p]
+                (handles[p],) = ax.plot(x, y, marker=".", ms=3, lw=1, color=col[p])
+        if extra:
+            for label, (x, y) in extra(k).items():
+                (handles[label],) = ax.plot(x, y, "k--", lw=1)
+        _frequency_axis(ax, lo, hi, every=1 if len(axes) < 3 else 2)
+        ax.set_title(title)
+    _ylabel(axes, ylabel)
+    _legend_below(fig, list(handles.values()), list(handles))
+    return _svg(fig)
+
+
+def tl_spectra(tl, packages, zones) -> str:
+    """Band TL of each package, one panel per zone."""
+    groups = []
+    for z in zones:
+        d = tl[tl["zone"] == z]
+        groups.append((z, {p: (g["band_hz"].to_numpy(), g["tl_db"].to_numpy())
+                           for p, g in d.groupby("package", sort=False)}))
+    return _per_panel_lines(groups, packages, "transmission loss (dB)")
+
+
+def interior_spectra(bands, conditions, packages, limit=None) -> str:
+    """Interior band levels of each package, one panel per condition; the limit
+    spectrum dashed when the study sets one."""
+    groups = []
+    for c in conditions:
+        d = bands[bands["condition"] == c]
+        groups.append((c, {p: (g["band_hz"].to_numpy(), g["interior_db"].to_numpy())
+                           for p, g in d.groupby("package", sort=False)}))
+    extra = (lambda k: {"interior limit": (np.asarray(limit[0]), np.asarray(limit[1]))}) \
+        if limit else None
+    return _per_panel_lines(groups, packages, "interior level (dB re 20 µPa)", extra,
+                            ncols=2)
+
+
+def share_bars(shares, conditions, packages) -> str:
+    """Share of each contributor in the interior A-weighted energy, one panel per
+    condition, packages as bars."""
+    contributors = list(dict.fromkeys(shares["contributor"]))
+    col = colours(contributors)
+    fig, axes = _panels(len(conditions), ncols=2, height=0.35 * len(packages) + 0.9)
+    handles = {}
+    for ax, c in zip(axes, conditions, strict=True):
+        d = shares[shares["condition"] == c]
+        left = np.zeros(len(packages))
+        y = np.arange(len(packages))[::-1]
+        for who in contributors:
+            e = d[d["contributor"] == who].set_index("package")["share_pct"]
+            w = np.array([e.get(p, 0.0) for p in packages])
+            handles[who] = ax.barh(y, w, left=left, color=col[who], height=0.6)
+            left += w
+        ax.set_yticks(y)
+        ax.set_yticklabels(packages)
+        ax.set_xlim(0, 100)
+        ax.grid(axis="y", visible=False)
+        ax.set_xlabel("share of interior A-weighted energy (%)")
+        ax.set_title(c)
+    _legend_below(fig, list(handles.values()), list(handles), ncol=min(len(handles), 6))
     return _svg(fig)
 
 
@@ -86,95 +207,105 @@ def pareto_front(mass, dba) -> list[int]:
     return sorted(keep, key=lambda i: mass[i])
 
 
-def trade_plot(summary, condition, baseline) -> str:
-    """Added mass against interior dBA; baseline marked, non-dominated packages joined."""
-    plt = _plt()
-    d = summary[summary["condition"] == condition].reset_index(drop=True)
-    fig, ax = plt.subplots(figsize=(3.6, 2.8))
-    ax.scatter(d["added_mass_kg"], d["interior_dba"], zorder=3)
-    for _, r in d.iterrows():
-        ax.annotate(r["package"], (r["added_mass_kg"], r["interior_dba"]), fontsize=6,
-                    xytext=(4, 3), textcoords="offset points")
-    front = pareto_front(d["added_mass_kg"], d["interior_dba"])
-    ax.plot(d.loc[front, "added_mass_kg"], d.loc[front, "interior_dba"], "g-", lw=1,
-            label="non-dominated")
-    b = d[d["package"] == baseline]
-    ax.scatter(b["added_mass_kg"], b["interior_dba"], marker="s", s=60, facecolors="none",
-               edgecolors="k", zorder=4, label="baseline")
-    ax.set_xlabel("added mass per aircraft (kg)")
-    ax.set_ylabel("interior level (dBA)")
-    ax.set_title(f"Mass against dBA, {condition}")
-    ax.legend(fontsize=6)
+def trade_plot(summary, conditions, baseline, target_dba=None) -> str:
+    """Added mass against interior dBA, one panel per condition: every point labelled
+    with its package, the baseline boxed, the non-dominated packages joined."""
+    fig, axes = _panels(len(conditions), ncols=2, height=2.5, sharey=False)
+    packages = list(dict.fromkeys(summary["package"]))
+    col = colours(packages)
+    handles = {}
+    for ax, c in zip(axes, conditions, strict=True):
+        d = summary[summary["condition"] == c].reset_index(drop=True)
+        x, y = d["added_mass_kg"].to_numpy(), d["interior_dba"].to_numpy()
+        ax.scatter(x, y, c=[col[p] for p in d["package"]], zorder=3, s=18)
+        order = np.argsort(y)
+        for rank, i in enumerate(order):  # alternate label sides so neighbours part
+            ax.annotate(d["package"][i], (x[i], y[i]), fontsize=6.5, zorder=5,
+                        xytext=(5, 3 if rank % 2 else -8), textcoords="offset points")
+        front = pareto_front(x, y)
+        (handles["non-dominated packages"],) = ax.plot(x[front], y[front], "g-", lw=1)
+        b = d["package"] == baseline
+        handles["baseline"] = ax.scatter(x[b], y[b], marker="s", s=70, facecolors="none",
+                                         edgecolors="k", zorder=4)
+        if target_dba is not None:
+            handles["target"] = ax.axhline(target_dba, color="#a33", ls="--", lw=1)
+        ax.margins(y=0.12)  # room for the labels above the highest point
+        span = max(x.max() - x.min(), 1.0)
+        ax.set_xlim(x.min() - 0.08 * span, x.max() + 0.35 * span)  # room for labels
+        ax.set_xlabel("added mass per aircraft (kg)")
+        ax.set_ylabel("interior level (dBA)")
+        ax.set_title(c)
+    _legend_below(fig, list(handles.values()), list(handles))
     return _svg(fig)
 
 
-def contribution_bars(contrib, condition, packages) -> str:
-    """Share of each zone in the interior A-weighted energy, per package."""
-    from ..bands import a_weighting, third_octave_bands
-
+def tile_curves(curves) -> str:
+    """Effective surface mass (symmetric log axis) and normal-incidence TL of each tile
+    layer alone, with the mass law of its areal mass."""
     plt = _plt()
-    zones = list(dict.fromkeys(contrib["zone"]))
-    fig, ax = plt.subplots(figsize=(5.5, 2.4))
-    bottom = np.zeros(len(packages))
-    for z in zones:
-        shares = []
-        for p in packages:
-            d = contrib[(contrib["package"] == p) & (contrib["condition"] == condition)]
-            aw = a_weighting(third_octave_bands(d["band_hz"].min(), d["band_hz"].max()).centre)
-            e = {zz: np.sum(10 ** ((g["interior_db"].to_numpy() + aw) / 10))
-                 for zz, g in d.groupby("zone", sort=False)}
-            shares.append(100 * e[z] / sum(e.values()))
-        ax.barh(packages, shares, left=bottom, label=z)
-        bottom += np.array(shares)
-    ax.set_xlabel("share of interior A-weighted energy (%)")
-    ax.set_title(f"Zone contributions, {condition}")
-    ax.legend(fontsize=6, loc="lower right")
-    return _svg(fig)
-
-
-def tile_mass_figure(tiles) -> str:
-    """Effective surface mass and normal-incidence TL of each tile layer."""
-    from ..tiles import mass_law_tl, normal_tl
-
-    plt = _plt()
-    f = np.geomspace(20, 2000, 600)
-    fig, (a1, a2) = plt.subplots(1, 2, figsize=(7.2, 2.6))
-    for label, tile in tiles:
-        m = tile.effective_mass(2 * np.pi * f).real
-        a1.plot(f, np.sign(m) * np.log10(1 + np.abs(m)), lw=1, label=label)
-        a2.plot(f, normal_tl(tile, f), lw=1, label=label)
-        a2.plot(f, mass_law_tl(tile.areal_mass, f), "k:", lw=0.8)
+    fig, (a1, a2) = plt.subplots(1, 2, figsize=(WIDTH, 2.7), layout="constrained")
+    col = colours([c["label"] for c in curves])
+    handles = {}
+    for c in curves:
+        f = c["f_hz"]
+        (handles[c["label"]],) = a1.plot(f, c["mass"], lw=1, color=col[c["label"]])
+        a2.plot(f, c["tl_db"], lw=1, color=col[c["label"]])
+        (handles["mass law of the same areal mass"],) = a2.plot(f, c["mass_law_db"], "k:",
+                                                                 lw=0.9)
+    a1.set_yscale("symlog", linthresh=1.0)
+    a1.axhline(0, color="k", lw=0.6)
+    lo = min(float(c["f_hz"][0]) for c in curves)
+    hi = max(float(c["f_hz"][-1]) for c in curves)
     for ax in (a1, a2):
-        ax.set_xscale("log")
-        ax.set_xlabel("frequency (Hz)")
-    a1.set_ylabel("sign(m) lg(1 + |m_eff| / (kg/m^2))")
-    a2.set_ylabel("normal-incidence TL (dB)")
-    a2.set_title("tile TL (dotted: mass law)")
-    a1.legend(fontsize=6)
+        _frequency_axis(ax, lo, hi, "frequency (Hz)")
+    ticks = [v for v in (-1000, -100, -10, -1, 0, 1, 10, 100, 1000)]
+    a1.set_yticks(ticks)
+    a1.set_yticklabels([f"{t:g}" for t in ticks])
+    a1.set_ylim(-1000, 1000)
+    a1.set_ylabel("effective surface mass, real part (kg/m²)")
+    a1.set_title("effective mass (below zero: the tile acts as a spring)")
+    a2.set_ylabel("TL at normal incidence (dB)")
+    a2.set_title("transmission loss of the tile alone")
+    _legend_below(fig, list(handles.values()), list(handles), ncol=2)
     return _svg(fig)
 
 
-def cross_section(stack, title) -> str:
-    """The stack as a labelled cross-section, thicknesses to scale; layers thicker than
-    30 mm are drawn 30 mm wide with a break mark, sheets get a minimum width."""
+def cross_section(layers, title, families) -> str:
+    """The stack as a cross-section, thicknesses to scale, each layer numbered and
+    coloured by material family (``families``: name -> (colour, hatch)), with a key.
+
+    Layers thicker than 30 mm are drawn 30 mm wide with a break mark; thin sheets get a
+    minimum width so they stay visible.
+    """
     plt = _plt()
-    fig, ax = plt.subplots(figsize=(7.2, 1.5))
-    x, cap, colours = 0.0, 30.0, plt.rcParams["axes.prop_cycle"].by_key()["color"]
-    for i, (layer, label) in enumerate(zip(stack.layers, stack.labels, strict=True)):
-        t = layer.thickness * 1e3
+    fig, ax = plt.subplots(figsize=(WIDTH, 1.35))
+    x, cap = 0.0, 30.0
+    used = {}
+    last_centre, last_lift = -99.0, 0.0
+    for r in layers:
+        t = r["thickness_mm"]
         w = min(max(t, 1.5), cap)
-        ax.add_patch(plt.Rectangle((x, 0), w, 1, color=colours[i % len(colours)], alpha=0.6))
+        colour, hatch = families[r["family"]]
+        used[r["family"]] = plt.Rectangle((0, 0), 1, 1, facecolor=colour, hatch=hatch,
+                                          edgecolor="#444", lw=0.5)
+        ax.add_patch(plt.Rectangle((x, 0), w, 1, facecolor=colour, hatch=hatch,
+                                   edgecolor="#444", lw=0.5))
         if t > cap:
-            ax.plot([x + w / 2 - 1, x + w / 2 + 1], [0.35, 0.65], "k-", lw=1)
-            ax.plot([x + w / 2, x + w / 2 + 2], [0.35, 0.65], "k-", lw=1)
-        ax.text(x + w / 2, 1.05 + 0.35 * (i % 2), f"{label}\n{t:.2g} mm" if t < 1 else
-                f"{label}\n{t:.1f} mm", ha="center",
-                va="bottom", fontsize=5.5)
+            for dx in (-1.0, 0.0):
+                ax.plot([x + w / 2 + dx, x + w / 2 + dx + 2], [0.35, 0.65], "k-", lw=1)
+        centre = x + w / 2
+        # numbers of thin neighbours would touch: stagger them
+        lift = 0.25 if centre - last_centre < 3.5 and not last_lift else 0.0
+        last_centre, last_lift = centre, lift
+        ax.text(centre, 1.05 + lift, str(r["n"]), ha="center", va="bottom", fontsize=7)
         x += w
     ax.set_xlim(-2, x + 2)
-    ax.set_ylim(0, 2.2)
+    ax.set_ylim(-0.35, 1.5)
     ax.axis("off")
-    ax.text(-2, -0.25, "exterior", fontsize=6)
-    ax.text(x + 2, -0.25, "cabin", fontsize=6, ha="right")
-    ax.set_title(title, fontsize=7)
+    ax.text(-2, -0.3, "exterior", fontsize=6.5)
+    ax.text(x + 2, -0.3, "cabin", fontsize=6.5, ha="right")
+    if title:
+        ax.set_title(title, fontsize=7.5, loc="left")
+    ax.legend(list(used.values()), list(used), loc="center left", bbox_to_anchor=(1.01, 0.5),
+              fontsize=6.5, title="material", title_fontsize=6.5)
     return _svg(fig)

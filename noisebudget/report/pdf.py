@@ -84,104 +84,125 @@ def _mime(path: Path) -> str:
     return {".css": "text/css", ".svg": "image/svg+xml"}.get(path.suffix, "text/plain")
 
 
-def _context(result, study_path: Path) -> dict:
-    from .. import __version__
-    from ..stack import Stack
+def _figures(result, m: dict, bar) -> dict:
+    """Every figure of the report as SVG text; ``bar`` shows progress per figure."""
     from . import figures
+    from .model import FAMILIES, tiles_model
 
     inp = result.inputs
-    packages = [p.name for p in inp.packages]
-    s = result.summary
-    rat = result.ratings
-    summary_rows = []
-    for _, r in s.iterrows():
-        side = rat[(rat["package"] == r["package"])].iloc[0]
-        summary_rows.append({**r.to_dict(), "stc": side["stc"], "rw": side["rw"],
-                             "rating_zone": side["zone"]})
-    limit = inp.targets.get("limit")
-    figs = {"tl": figures.tl_figure(result.tl, packages),
-            "spectra": [figures.interior_spectra(result.bands, c.name, packages, limit)
-                        for c in inp.conditions],
-            "trade": [figures.trade_plot(s, c.name, inp.baseline) for c in inp.conditions],
-            "contrib": [figures.contribution_bars(result.contributions, c.name, packages)
-                        for c in inp.conditions]}
-    tiles = [(f"{p.name}: {z}", layer) for p in inp.packages for z, st in p.stacks.items()
-             for layer in st.layers if layer.type_name == "tile"]
-    unique, seen = [], set()
-    for label, t in tiles:
-        if t not in seen:
-            seen.add(t)
-            unique.append((label, t))
-    figs["tiles"] = figures.tile_mass_figure(unique) if unique else None
-    tile_rows = []
-    if unique:
-        from ..tiles import mass_law_tl, tile_extrema
+    conds = [{"name": c.name, "band_hz": c.bands.nominal, "level_db": c.levels_db,
+              "tones": list(zip(c.tone_names or [f"{f:g} Hz" for f in c.tones_hz],
+                                c.tones_hz, c.tone_levels_db, strict=True))}
+             for c in inp.conditions]
+    packages, conditions, zones = m["packages"], m["conditions"], m["zone_names"]
+    jobs = {
+        "exterior": lambda: figures.exterior_spectra(conds),
+        "trade": lambda: figures.trade_plot(result.summary, conditions, inp.baseline,
+                                            inp.targets.get("dba")),
+        "tl": lambda: figures.tl_spectra(result.tl, packages, zones),
+        "interior": lambda: figures.interior_spectra(result.bands, conditions, packages,
+                                                     inp.targets.get("limit")),
+        "shares": lambda: figures.share_bars(m["shares"], conditions, packages),
+    }
+    for k, s in enumerate(m["stacks"]):
+        if "layers" in s:
+            jobs[f"stack{k}"] = (lambda s=s: figures.cross_section(
+                s["layers"], "", FAMILIES))
+    curves, m["tile_table"] = tiles_model(result)
+    if curves:
+        jobs["tiles"] = lambda: figures.tile_curves(curves)
+    labels = {"exterior": "exterior spectra", "trade": "mass against dBA", "tl": "TL",
+              "interior": "interior spectra", "shares": "contributions",
+              "tiles": "tile curves"}
+    out = {}
+    for name, job in jobs.items():
+        bar.start(labels.get(name, "stack drawings"))
+        out[name] = job()
+    for k, s in enumerate(m["stacks"]):
+        s["svg"] = out.get(f"stack{k}")
+    return out
 
-        for label, t in unique:
-            ext = tile_extrema(t, 10.0, 5000.0)
-            if ext.peak_hz.size:
-                fp, tp = float(ext.peak_hz[0]), float(ext.peak_db[0])
-                tile_rows.append({"label": label, "mass": t.areal_mass, "peak_hz": fp,
-                                  "peak_db": tp,
-                                  "gain_db": tp - float(mass_law_tl(t.areal_mass, [fp])[0]),
-                                  "dip_hz": float(ext.dip_hz[0]) if ext.dip_hz.size else None})
-    stacks, drawn = [], {}
-    for p in inp.packages:
-        for z in inp.zones:
-            st: Stack = p.stacks[z.name]
-            if id(st) in drawn:  # a zone taken over unchanged (based_on): say so once
-                stacks.append({"package": p.name, "zone": z.name, "same_as": drawn[id(st)]})
-                continue
-            drawn[id(st)] = p.name
-            rows = [{"label": lab, "type": layer.type_name,
-                     "thickness_mm": layer.thickness * 1e3, "mass": layer.areal_mass}
-                    for layer, lab in zip(st.layers, st.labels, strict=True)]
-            stacks.append({"package": p.name, "zone": z.name, "rows": rows,
-                           "total_mass": st.areal_mass, "total_mm": st.thickness * 1e3,
-                           "svg": figures.cross_section(st, f"{p.name}: {z.name}")})
-    band_tables = []
-    for c in inp.conditions:
-        d = result.bands[result.bands["condition"] == c.name]
-        pivot = d.pivot(index="band_hz", columns="package", values="interior_db")[packages]
-        band_tables.append({"condition": c.name, "packages": packages,
-                            "rows": [(b, list(v)) for b, v in zip(pivot.index,
-                                                                   pivot.to_numpy(),
-                                                                   strict=True)]})
+
+def _figure_count(result) -> int:
+    stacks = {id(s): s for p in result.inputs.packages for s in p.stacks.values()}
+    tiles = any(layer.type_name == "tile" for s in stacks.values() for layer in s.layers)
+    return 5 + len(stacks) + tiles
+
+
+def _context(result, bar) -> dict:
+    from .model import FAMILIES, build
+
+    m = build(result)
+    figs = _figures(result, m, bar)
+    inp = result.inputs
     from ..catalog import load_catalog
 
     cat = load_catalog()
     sources = [(k, cat.entries[k].get("source", "")) for k in inp.meta.get("catalog_entries",
                                                                            [])]
-    air = inp.meta["air"]
-    return {"meta": inp.meta, "title": inp.title, "version": __version__,
-            "files": sorted(getattr(result, "files", {}).items()), "summary": summary_rows,
-            "figs": figs, "stacks": stacks, "band_tables": band_tables,
-            "cautions": CAUTIONS, "references": REFERENCES, "sources": sources,
-            "inputs": inp, "air": air, "baseline": inp.baseline, "tile_rows": tile_rows,
-            "notes": {p.name: p.notes for p in inp.packages}}
+    return {**m, "figs": figs, "families": FAMILIES, "cautions": CAUTIONS,
+            "references": REFERENCES, "sources": sources, "air": inp.meta["air"],
+            "theta_max": inp.theta_max_deg or 78,
+            "limit": inp.targets.get("limit")}
 
 
-def render_html(result, study_path: Path) -> str:
-    """The report as HTML text (autoescaped; figures are trusted SVG from matplotlib)."""
+def _cells(table, blank: int = 0) -> list:
+    """Rows of ``(text, css class)`` cells; the first ``blank`` columns are left empty
+    where they repeat the row above, so groups read at a glance; negative margins are
+    marked as missed targets."""
+    from .model import TEXT, fmt
+
+    out, prev = [], None
+    for row in table.rows:
+        cells, same = [], prev is not None
+        for j, (v, c) in enumerate(zip(row, table.columns, strict=True)):
+            same = same and j < blank and prev[j] == v
+            text = "" if same else fmt(v, c.style)
+            cls = "n" if c.style != TEXT else ("wrap" if len(text) > 28 else "")
+            if c.key.startswith("margin") and isinstance(v, float):
+                cls += " fail" if fmt(v, c.style).startswith("-") else " pass"
+            cells.append((text, cls.strip()))
+        out.append({"cells": cells, "group": blank and cells[0][0] != "" and prev is not None})
+        prev = row
+    return out
+
+
+def _environment():
     import jinja2
+
+    from .model import fmt
 
     env = jinja2.Environment(loader=jinja2.FileSystemLoader(str(data_path("templates"))),
                              autoescape=True, undefined=jinja2.StrictUndefined)
-    env.filters["f1"] = lambda v: "-" if v is None or v != v else f"{v:.1f}"
-    env.filters["f2"] = lambda v: "-" if v is None or v != v else f"{v:.2f}"
-    env.filters["f0"] = lambda v: "-" if v is None or v != v else f"{v:.0f}"
+    env.filters["cell"] = lambda v, col: fmt(v, col.style)
+    env.filters["fmt"] = fmt
     env.filters["svg"] = svg_data_uri
-    env.filters["f3"] = lambda v: "-" if v is None or v != v else f"{v + 0.0:.3f}"
-    env.filters["mm"] = lambda v: f"{v:.2f}" if 0 < v < 1 else f"{v:.1f}"
-    return env.get_template("report.html").render(**_context(result, study_path))
+    env.globals["cells"] = _cells
+    return env
+
+
+def render_html(result, study_path: Path | None = None, bar=None) -> str:
+    """The report as HTML text (autoescaped; figures are trusted SVG from matplotlib)."""
+    from ..progress import steps
+
+    if bar is None:
+        with steps(1, "report") as quiet_bar:
+            return render_html(result, study_path, quiet_bar)
+    return _environment().get_template("report.html").render(**_context(result, bar))
 
 
 def write_pdf(result, study_path: Path, path: Path) -> None:
-    """Render and write the PDF atomically."""
+    """Render and write the PDF atomically, with progress on standard error when the
+    work takes more than a second (see :mod:`noisebudget.progress`)."""
     import weasyprint
 
-    html = render_html(result, study_path)
-    base = data_path("templates").resolve().as_uri() + "/"
-    pdf = weasyprint.HTML(string=html, base_url=base,
-                          url_fetcher=_fetcher()).write_pdf()
+    from ..progress import steps
+
+    with steps(_figure_count(result) + 2, "PDF") as bar:
+        html = render_html(result, study_path, bar)
+        bar.start("page layout")
+        base = data_path("templates").resolve().as_uri() + "/"
+        pdf = weasyprint.HTML(string=html, base_url=base,
+                              url_fetcher=_fetcher()).write_pdf()
+        bar.start("writing")
     atomic_write_bytes(path, pdf)

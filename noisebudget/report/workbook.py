@@ -1,7 +1,12 @@
-"""Workbook for programme staff (openpyxl): tables as numbers, units in headers, charts.
+"""Workbook for programme staff (openpyxl): every table of the report as numbers.
 
-Text from user files that starts with ``=``, ``+``, ``-`` or ``@`` is stored as text,
-never as a formula.
+Each sheet opens with the same title block (study, programme, revision, date, author,
+input hash), then one table with a frozen, filterable header row. A column's number
+format follows its unit (mm for thicknesses, 0.1 dB for levels, 0.1 kg for masses, three
+significant figures for material properties); values keep their full precision, except
+that a value which would show as -0.0 is stored as 0. Native charts cover every flight
+condition and zone. Text from user files is stored as text, never as a formula,
+whatever it starts with.
 """
 
 from __future__ import annotations
@@ -14,176 +19,412 @@ import pandas as pd
 
 from ..writing import atomic_write_bytes
 from . import CAUTIONS
+from .model import (
+    GENERAL,
+    MM,
+    SIG3,
+    TEXT,
+    Column,
+    Table,
+    colours,
+    decimals_3sf,
+    fmt,
+    in_study_order,
+)
 
-__all__ = ["HEADERS", "write_workbook"]
+__all__ = ["HEADER_ROW", "write_workbook"]
 
-HEADERS = {  # column -> header with unit
-    "package": "package", "zone": "zone", "condition": "condition", "band_hz": "band (Hz)",
-    "tl_db": "TL (dB)", "exterior_db": "exterior (dB)", "composite_tl_db": "composite TL (dB)",
-    "interior_db": "interior (dB)", "noise_reduction_db": "noise reduction (dB)",
-    "dominant_zone": "dominant zone", "interior_dbz": "interior dB(Z)",
-    "interior_dba": "interior dBA", "sil4_db": "SIL4 (dB)", "exterior_dbz": "exterior dB(Z)",
-    "exterior_dba": "exterior dBA", "noise_reduction_dba": "noise reduction (dBA)",
-    "target_dba": "target dBA", "margin_dba": "margin dBA", "target_sil4_db": "target SIL4 (dB)",
-    "margin_sil4_db": "margin SIL4 (dB)", "margin_limit_db": "margin to limit (dB)",
-    "mass_kg": "mass (kg)", "added_mass_kg": "added mass (kg)", "dba_gain": "dBA gained",
-    "dba_gain_per_kg": "dBA gained per kg", "area_m2": "area (m^2)",
-    "stack_kg_m2": "stack (kg/m^2)", "installation_kg_m2": "installation (kg/m^2)",
-    "areal_mass_kg_m2": "areal mass (kg/m^2)",
-}
+HEADER_ROW = 5  # rows 1-3 title block, row 4 empty
+CHART_ROWS = 17  # rows a chart of the default size takes, with a gap
+_BLUE = "E8ECF0"
 
 
-def _put(ws, row, col, value):
+def _excel_format(style: str, value) -> str | None:
+    """Excel number format for a style and a value (three significant figures are
+    chosen per value)."""
+    if style == SIG3:
+        d = decimals_3sf(value)
+        return "0.00E+00" if d is None else ("0" if d == 0 else "0." + "0" * d)
+    if style in (TEXT, GENERAL):
+        return None
+    return style
+
+
+def _tidy(value, style):
+    """The number as stored: a value that shows as zero is stored as zero (no -0.0)."""
+    if style not in (TEXT, GENERAL, SIG3, MM) and "." in style:
+        d = len(style.split(".")[1])
+        if abs(value) < 0.5 * 10.0**-d:
+            return 0.0
+    if style == MM and abs(value) < 0.005:
+        return 0.0
+    return value + 0.0
+
+
+def _put(ws, row, col, value, style=TEXT):
+    """Write one cell: text as text (never a formula), numbers with their format."""
     cell = ws.cell(row=row, column=col)
-    if isinstance(value, str):
+    if value is None or (isinstance(value, float) and value != value):
+        cell.value = None
+    elif isinstance(value, str):
         cell.value = value
         cell.data_type = "s"  # never a formula, whatever the text starts with
-    elif value is None or (isinstance(value, float) and value != value):
-        cell.value = None
     else:
-        cell.value = float(value) if hasattr(value, "__float__") and not isinstance(
-            value, (int, bool)) else value
-        if isinstance(cell.value, float):
-            cell.number_format = "0.00"
+        v = float(value) if not isinstance(value, (bool, int)) else value
+        if isinstance(v, float):
+            v = _tidy(v, style)
+        cell.value = v
+        f = _excel_format(style, v)
+        if f:
+            cell.number_format = f
     return cell
 
 
-def _sheet(wb, title, df, widths=None):
-    from openpyxl.styles import Font, PatternFill
+def _title_block(ws, tb: dict):
+    from openpyxl.styles import Font
 
-    ws = wb.create_sheet(title)
-    for j, col in enumerate(df.columns, start=1):
-        c = _put(ws, 1, j, HEADERS.get(col, col))
+    c = _put(ws, 1, 1, tb["title"])
+    c.font = Font(bold=True, size=13)
+    _put(ws, 2, 1, f"programme: {tb['programme']}   revision: {tb['revision']}   "
+                   f"date: {tb['date']}   author: {tb['author']}   baseline: {tb['baseline']}")
+    c = _put(ws, 3, 1, f"input hash (SHA-256): {tb['input_hash']}   {tb['tool']}   "
+                       "engineering estimates: see the Cautions sheet")
+    c.font = Font(size=8, color="555555")
+
+
+def _sheet(wb, name: str, table: Table, tb: dict, row_styles=None, widths=None):
+    """A sheet with the title block and one table; returns the sheet."""
+    from openpyxl.styles import Alignment, Font, PatternFill
+    from openpyxl.utils import get_column_letter
+
+    ws = wb.create_sheet(name)
+    _title_block(ws, tb)
+    h = HEADER_ROW
+    for j, col in enumerate(table.columns, start=1):
+        c = _put(ws, h, j, col.header)
         c.font = Font(bold=True)
-        c.fill = PatternFill("solid", fgColor="E8ECF0")
-    for i, row in enumerate(df.itertuples(index=False), start=2):
-        for j, v in enumerate(row, start=1):
-            _put(ws, i, j, v)
-    ws.freeze_panes = "A2"
-    for j, col in enumerate(df.columns, start=1):
-        letter = ws.cell(row=1, column=j).column_letter
-        ws.column_dimensions[letter].width = (widths or {}).get(col, max(
-            12, len(HEADERS.get(col, col)) + 2))
+        c.fill = PatternFill("solid", fgColor=_BLUE)
+        c.alignment = Alignment(wrap_text=True, vertical="top")
+    indent = Alignment(horizontal="left", indent=1)  # text clear of numbers to its left
+    for i, row in enumerate(table.rows, start=h + 1):
+        for j, (v, col) in enumerate(zip(row, table.columns, strict=True), start=1):
+            style = row_styles[i - h - 1] if col.style == "row" else col.style
+            c = _put(ws, i, j, v, style)
+            if j > 1 and isinstance(v, str):
+                c.alignment = indent
+    ncol = len(table.columns)
+    last = get_column_letter(max(ncol, 1))
+    ws.freeze_panes = f"A{h + 1}"
+    if table.rows:
+        ws.auto_filter.ref = f"A{h}:{last}{h + len(table.rows)}"
+    for j, col in enumerate(table.columns, start=1):
+        shown = [len(fmt(r[j - 1], col.style if col.style != "row" else SIG3))
+                 for r in table.rows[:500]]
+        longest_word = max((len(w) for w in col.header.split()), default=4)
+        width = max([min(len(col.header), 16), longest_word, *shown]) + 2
+        ws.column_dimensions[get_column_letter(j)].width = min((widths or {}).get(
+            col.key, width), 60)
+    ws.row_dimensions[h].height = 30
+    # printing: landscape, one page wide, title block and header on every page
+    ws.page_setup.orientation = "landscape"
+    ws.page_setup.paperSize = ws.PAPERSIZE_A4
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    ws.page_setup.fitToWidth, ws.page_setup.fitToHeight = 1, 0
+    ws.print_title_rows = f"1:{h}"
     return ws
 
 
-def _scatter(title, x_title, y_title, log_x):
+def _frequency_chart(title, y_title, x_title="frequency (Hz)"):
     from openpyxl.chart import ScatterChart
 
     ch = ScatterChart()
-    ch.title, ch.style = title, 13
+    ch.title, ch.style, ch.scatterStyle = title, 13, "lineMarker"
     ch.x_axis.title, ch.y_axis.title = x_title, y_title
     ch.x_axis.delete = False
     ch.y_axis.delete = False
-    if log_x:
-        ch.x_axis.scaling.logBase = 10
+    ch.x_axis.scaling.logBase = 10
+    ch.legend.position = "b"  # below the plot, outside the data
     ch.height, ch.width = 8, 16
     return ch
 
 
-def _ordered(df, inp, keys):
-    """Rows sorted in the study's own order of conditions, packages and zones."""
-    order = {"condition": [c.name for c in inp.conditions],
-             "package": [p.name for p in inp.packages], "zone": [z.name for z in inp.zones]}
-    tmp = df.copy()
-    for k in keys:
-        if k in order:
-            tmp[k] = pd.Categorical(tmp[k], categories=order[k], ordered=True)
-    tmp = tmp.sort_values(keys, kind="stable")
-    for k in keys:
-        if k in order:
-            tmp[k] = tmp[k].astype(str)
-    return tmp.reset_index(drop=True)
+def _anchor(ws, table: Table, k: int) -> str:
+    from openpyxl.utils import get_column_letter
+
+    return f"{get_column_letter(len(table.columns) + 2)}{HEADER_ROW + k * CHART_ROWS}"
 
 
-def _series_chart(ws, df, mask, key, x_col, y_col, title, x_title, y_title, anchor, log_x):
-    """A scatter chart with one series per value of ``key`` among the rows in ``mask``.
+def _runs(values, rows):
+    """``{value: (first, last)}`` sheet rows of each contiguous run of ``values``."""
+    out = {}
+    for v, r in zip(values, rows, strict=True):
+        lo, _ = out.get(v, (r, r))
+        if v in out and out[v][1] != r - 1:
+            raise AssertionError("chart series rows must be contiguous")
+        out[v] = (lo, r)
+    return out
 
-    ``df`` is the sheet's table in sheet order; each series must be a contiguous run of
-    rows, which :func:`_ordered` guarantees.
-    """
+
+def _colour(series, hex_colour: str, line: bool = True):
+    """One colour for a series' line and markers (the PDF's colour of the same name)."""
+    series.marker.graphicalProperties.solidFill = hex_colour
+    series.marker.graphicalProperties.line.solidFill = hex_colour
+    if line:
+        series.graphicalProperties.line.solidFill = hex_colour
+        series.graphicalProperties.line.width = 15000  # EMU, about 1.2 pt
+    else:
+        series.graphicalProperties.line.noFill = True
+
+
+def _y_range(chart, values, step: float = 10.0):
+    """The y axis from the data rounded out to ``step`` (dB axes need not start at 0)."""
+    v = [x for x in values if isinstance(x, float)]
+    if v:
+        chart.y_axis.scaling.min = step * np.floor(min(v) / step)
+        chart.y_axis.scaling.max = step * np.ceil(max(v) / step)
+
+
+def _line_charts(ws, table: Table, panel_key, series_key, y_key, panels, title, y_title):
+    """One chart per panel value (condition or zone), one series per ``series_key``."""
     from openpyxl.chart import Reference, Series
 
-    ch = _scatter(title, x_title, y_title, log_x)
-    xc = list(df.columns).index(x_col) + 1
-    yc = list(df.columns).index(y_col) + 1
-    sub = df[mask]
-    for name, group in sub.groupby(key, sort=False):
-        pos = group.index.to_numpy()
-        if not np.all(np.diff(pos) == 1):
-            raise AssertionError("chart series rows must be contiguous")
-        lo, hi = int(pos[0]) + 2, int(pos[-1]) + 2
-        s = Series(Reference(ws, min_col=yc, min_row=lo, max_row=hi),
-                   Reference(ws, min_col=xc, min_row=lo, max_row=hi), title=str(name))
-        s.marker.symbol = "circle"
-        if not log_x:
-            s.graphicalProperties.line.noFill = True
-        ch.series.append(s)
-    ws.add_chart(ch, anchor)
+    keys = [c.key for c in table.columns]
+    xc, yc = keys.index("band_hz") + 1, keys.index(y_key) + 1
+    panel_vals, series_vals = table.values(panel_key), table.values(series_key)
+    col = colours(series_vals)
+    rows = range(HEADER_ROW + 1, HEADER_ROW + 1 + len(table.rows))
+    for k, panel in enumerate(panels):
+        sel = [(s, r) for p, s, r in zip(panel_vals, series_vals, rows, strict=True)
+               if p == panel]
+        ch = _frequency_chart(f"{title}, {panel}", y_title)
+        for name, (lo, hi) in _runs([s for s, _ in sel], [r for _, r in sel]).items():
+            s = Series(Reference(ws, min_col=yc, min_row=lo, max_row=hi),
+                       Reference(ws, min_col=xc, min_row=lo, max_row=hi), title=str(name))
+            s.marker.symbol = "circle"
+            s.marker.size = 4
+            _colour(s, col[name])
+            ch.series.append(s)
+        _y_range(ch, [table.rows[r - HEADER_ROW - 1][yc - 1] for _, r in sel])
+        ws.add_chart(ch, _anchor(ws, table, k))
+
+
+def _trade_charts(ws, table: Table, conditions):
+    """Added mass against interior dBA per condition; each point is its own series, so
+    its label is the package's name."""
+    from openpyxl.chart import Reference, ScatterChart, Series
+    from openpyxl.chart.label import DataLabelList
+
+    keys = [c.key for c in table.columns]
+    xc, yc = keys.index("added_mass_kg") + 1, keys.index("interior_dba") + 1
+    col = colours(table.values("package"))
+    for k, cond in enumerate(conditions):
+        ch = ScatterChart()
+        ch.title, ch.style, ch.scatterStyle = f"Added mass against interior dBA, {cond}", 13, \
+            "lineMarker"
+        ch.x_axis.title, ch.y_axis.title = "added mass per aircraft (kg)", "interior level (dBA)"
+        ch.x_axis.delete = False
+        ch.y_axis.delete = False
+        ch.legend = None  # the points carry their names
+        ch.height, ch.width = 8, 16
+        for i, row in enumerate(table.rows):
+            if row[keys.index("condition")] != cond:
+                continue
+            r = HEADER_ROW + 1 + i
+            s = Series(Reference(ws, min_col=yc, min_row=r), Reference(ws, min_col=xc, min_row=r),
+                       title=str(row[keys.index("package")]))
+            s.marker.symbol = "circle"
+            s.marker.size = 7
+            _colour(s, col[row[keys.index("package")]], line=False)
+            s.dLbls = DataLabelList()
+            s.dLbls.showSerName = True
+            for flag in ("showVal", "showCatName", "showLegendKey", "showPercent"):
+                setattr(s.dLbls, flag, False)
+            s.dLbls.position = "r"
+            ch.series.append(s)
+        ws.add_chart(ch, _anchor(ws, table, k))
+
+
+def _share_table(shares: pd.DataFrame) -> Table:
+    wide = shares.pivot_table(index=["condition", "package"], columns="contributor",
+                              values="share_pct", sort=False).reset_index()
+    who = [c for c in dict.fromkeys(shares["contributor"])]
+    cols = [Column("condition", "condition"), Column("package", "package")] + \
+        [Column(f"share:{w}", f"{w} (%)", "0.0", "%") for w in who]
+    rows = [[r["condition"], r["package"], *[_num(r.get(w)) for w in who]]
+            for _, r in wide.iterrows()]
+    order = {c: i for i, c in enumerate(dict.fromkeys(shares["condition"]))}
+    porder = {p: i for i, p in enumerate(dict.fromkeys(shares["package"]))}
+    rows.sort(key=lambda r: (order[r[0]], porder[r[1]]))
+    return Table(cols, rows)
+
+
+def _num(v):
+    return None if v is None or (isinstance(v, float) and v != v) else float(v)
+
+
+def _share_charts(ws, table: Table, conditions):
+    """Stacked bars of each contributor's share, one chart per condition."""
+    from openpyxl.chart import BarChart, Reference, Series
+
+    conds = table.values("condition")
+    for k, cond in enumerate(conditions):
+        idx = [i for i, c in enumerate(conds) if c == cond]
+        lo, hi = HEADER_ROW + 1 + idx[0], HEADER_ROW + 1 + idx[-1]
+        ch = BarChart()
+        ch.type, ch.grouping, ch.overlap = "bar", "percentStacked", 100
+        ch.title = f"Share of interior A-weighted energy, {cond}"
+        ch.y_axis.title, ch.x_axis.title = "share (%)", "package"
+        ch.x_axis.delete = False
+        ch.y_axis.delete = False
+        ch.legend.position = "b"
+        ch.height, ch.width = 8, 16
+        cats = Reference(ws, min_col=2, min_row=lo, max_row=hi)
+        palette = colours([c.key for c in table.columns[2:]])
+        for j, col in enumerate(table.columns[2:], start=3):
+            s = Series(Reference(ws, min_col=j, min_row=lo, max_row=hi),
+                       title=col.header[:-4])
+            s.graphicalProperties.solidFill = palette[col.key]
+            s.graphicalProperties.line.solidFill = palette[col.key]
+            ch.series.append(s)
+        ch.set_categories(cats)
+        ws.add_chart(ch, _anchor(ws, table, k))
+
+
+def _layers_table(result) -> tuple:
+    from .model import layer_family, parameter_rows
+
+    rows, styles = [], []
+    for p in result.inputs.packages:
+        for z in result.inputs.zones:
+            st = p.stacks[z.name]
+            for k, (layer, label) in enumerate(zip(st.layers, st.labels, strict=True), 1):
+                fam = layer_family(layer, label)
+                for name, value, unit, style in parameter_rows(layer):
+                    rows.append([p.name, z.name, k, label, fam, name, value, unit])
+                    styles.append(style)
+    cols = [Column("package", "package"), Column("zone", "zone"),
+            Column("layer", "layer", "0"), Column("label", "label"),
+            Column("family", "material family"), Column("parameter", "parameter"),
+            Column("value", "value", "row"), Column("unit", "unit")]
+    return Table(cols, rows), styles
+
+
+def _properties(wb, tb: dict):
+    from datetime import UTC, datetime
+
+    p = wb.properties
+    p.title = tb["title"]
+    p.subject = tb["programme"]
+    p.creator = tb["author"] or "noisebudget"
+    p.lastModifiedBy = tb["tool"]
+    p.description = " ".join(CAUTIONS)
+    p.keywords = f"design review; revision {tb['revision']}; {tb['date']}"
+    p.identifier = tb["input_hash"]
+    p.category = "engineering estimate"
+    p.version = tb["revision"] or None
+    p.created = p.modified = datetime.now(UTC).replace(tzinfo=None, microsecond=0)
 
 
 def write_workbook(result, path: Path) -> None:
     """Write the workbook atomically."""
     from openpyxl import Workbook
 
+    from .model import build, inputs_long
+
+    m = build(result)
+    tb = m["title"]
     inp = result.inputs
+    conditions, zones = m["conditions"], m["zone_names"]
     wb = Workbook()
     wb.remove(wb.active)
-    summary = _ordered(result.summary, inp, ["condition", "package"])
-    ws = _sheet(wb, "Summary", summary)
-    _series_chart(ws, summary, np.ones(len(summary), bool), "condition", "added_mass_kg",
-                  "interior_dba", "Added mass against interior dBA", "added mass (kg)",
-                  "interior dBA", f"A{len(summary) + 4}", False)
-    bands = _ordered(result.bands, inp, ["condition", "package", "band_hz"])
-    ws = _sheet(wb, "Bands", bands)
-    first = inp.conditions[0].name
-    _series_chart(ws, bands, (bands["condition"] == first).to_numpy(), "package", "band_hz",
-                  "interior_db", f"Interior spectrum, {first}", HEADERS["band_hz"],
-                  "interior (dB)", "K2", True)
-    tl = _ordered(result.tl, inp, ["zone", "package", "band_hz"])
-    ws = _sheet(wb, "TL", tl)
-    zone0 = inp.zones[0].name
-    _series_chart(ws, tl, (tl["zone"] == zone0).to_numpy(), "package", "band_hz", "tl_db",
-                  f"Transmission loss, {zone0}", HEADERS["band_hz"], "TL (dB)", "F2", True)
-    _sheet(wb, "Mass", result.mass)
-    rows = []
-    for p in inp.packages:
-        for z in inp.zones:
-            st = p.stacks[z.name]
-            for k, (layer, label) in enumerate(zip(st.layers, st.labels, strict=True), 1):
-                for name, value in layer.parameters().items():
-                    if name == "cells":
-                        for ci, cell in enumerate(value, 1):
-                            for cn, cv in vars(cell).items():
-                                rows.append((p.name, z.name, k, label, f"cell[{ci}].{cn}",
-                                             cv, _unit(cn)))
-                        continue
-                    rows.append((p.name, z.name, k, label, name, value, _unit(name)))
-    inputs = pd.DataFrame(rows, columns=["package", "zone", "layer", "label", "parameter",
-                                         "value (SI)", "unit"])
-    _sheet(wb, "Inputs", inputs, {"label": 28, "parameter": 24})
+    _properties(wb, tb)
+
+    ws = _sheet(wb, "Summary", m["summary"], tb)
+    _trade_charts(ws, m["summary"], conditions)
+
+    long, styles = inputs_long(result, m["inputs"])
+    _sheet(wb, "Inputs", long, tb, row_styles=styles, widths={"item": 36, "value": 50})
+    ext = m["inputs"]["bands"]
+    ws = _sheet(wb, "Exterior", ext, tb)
+    from openpyxl.chart import Reference, Series
+
+    for k, col in enumerate([c for c in ext.columns if c.key.startswith("exterior:")]):
+        j = ext.columns.index(col) + 1
+        ch = _frequency_chart(f"Exterior spectrum, {col.key.split(':', 1)[1]}",
+                              "exterior level (dB re 20 µPa)", "one-third-octave band (Hz)")
+        n = len(ext.rows)
+        s = Series(Reference(ws, min_col=j, min_row=HEADER_ROW + 1, max_row=HEADER_ROW + n),
+                   Reference(ws, min_col=1, min_row=HEADER_ROW + 1, max_row=HEADER_ROW + n),
+                   title=col.header)
+        s.marker.symbol = "circle"
+        s.marker.size = 4
+        _colour(s, "333355")
+        ch.series.append(s)
+        _y_range(ch, [r[j - 1] for r in ext.rows])
+        ch.legend = None  # one series, named in the title
+        ws.add_chart(ch, _anchor(ws, ext, k))
+
+    if m["tones"].rows:
+        _sheet(wb, "Tones", m["tones"], tb)
+
+    bands = _table(result.bands, inp, ["condition", "package"])
+    ws = _sheet(wb, "Interior bands", bands, tb)
+    _line_charts(ws, bands, "condition", "package", "interior_db", conditions,
+                 "Interior spectrum", "interior level (dB re 20 µPa)")
+
+    contrib = _table(result.contributions, inp, ["condition", "package"])
+    _sheet(wb, "Contributions", contrib, tb)
+    shares = _share_table(m["shares"])
+    ws = _sheet(wb, "Shares", shares, tb)
+    _share_charts(ws, shares, conditions)
+
+    tl = _table(result.tl, inp, ["zone", "package"])
+    ws = _sheet(wb, "TL", tl, tb)
+    _line_charts(ws, tl, "zone", "package", "tl_db", zones, "Transmission loss",
+                 "transmission loss (dB)")
+
+    _sheet(wb, "Ratings and mass", m["zones"], tb)
+    layers, styles = _layers_table(result)
+    _sheet(wb, "Layers", layers, tb, row_styles=styles)
+
     from ..catalog import load_catalog
 
     cat = load_catalog()
-    src = pd.DataFrame([(k, cat.entries[k].get("source", "")) for k in
-                        inp.meta.get("catalog_entries", [])] +
-                       [(Path(f).name, f"SHA-256 {h}") for f, h in
-                        sorted(getattr(result, "files", {}).items())],
-                       columns=["entry or file", "source"])
-    _sheet(wb, "Sources", src, {"entry or file": 30, "source": 110})
-    _sheet(wb, "Cautions", pd.DataFrame({"caution": list(CAUTIONS)}), {"caution": 140})
+    src = [[k, cat.entries[k].get("source", "")] for k in inp.meta.get("catalog_entries", [])]
+    src += [[name, f"SHA-256 {digest}"] for name, digest in tb["files"]]
+    src.append(["input hash", f"SHA-256 over the lines 'digest  file name' above, sorted: "
+                              f"{tb['input_hash']}"])
+    _sheet(wb, "Sources", Table([Column("entry", "entry or file"), Column("source", "source")],
+                                src), tb, widths={"source": 60})
+    _sheet(wb, "Cautions", Table([Column("caution", "caution")], [[c] for c in CAUTIONS]),
+           tb, widths={"caution": 60})
+    for name in ("Inputs", "Sources", "Cautions"):  # long text wraps
+        _wrap_long(wb[name])
     buf = io.BytesIO()
     wb.save(buf)
     atomic_write_bytes(path, buf.getvalue())
 
 
-def _unit(name: str) -> str:
-    units = {"thickness": "m", "gap": "m", "layer_thickness": "m", "plate_thickness": "m",
-             "sheet_thickness": "m", "screen_thickness": "m", "tile_thickness": "m",
-             "surface_density": "kg/m^2", "bending_stiffness": "N m",
-             "flow_resistivity": "Pa s/m^2", "flow_resistance": "Pa s/m",
-             "viscous_length": "m", "thermal_length": "m", "bulk_density": "kg/m^3",
-             "pitch": "m", "frame_areal_mass": "kg/m^2", "radius": "m",
-             "membrane_thickness": "m", "membrane_density": "kg/m^3", "tension": "N/m",
-             "mass": "kg", "mass_radius": "m"}
-    return units.get(name, "-")
+def _table(df: pd.DataFrame, inp, keys) -> Table:
+    """A result table in the study's order, its sort keys as the first columns."""
+    df = in_study_order(df, inp, keys)
+    return Table.from_frame(df, [*keys, *[c for c in df.columns if c not in keys]])
+
+
+def _wrap_long(ws):
+    """Text longer than its column wraps, and its row grows to show it."""
+    import math
+
+    from openpyxl.styles import Alignment
+
+    for row in ws.iter_rows(min_row=HEADER_ROW + 1):
+        lines = 1
+        for c in row:
+            width = ws.column_dimensions[c.column_letter].width or 10
+            if isinstance(c.value, str) and len(c.value) > width:
+                c.alignment = Alignment(wrap_text=True, vertical="top")
+                lines = max(lines, math.ceil(len(c.value) * 1.1 / width))
+        if lines > 1:
+            ws.row_dimensions[row[0].row].height = 13 * lines
+
+
