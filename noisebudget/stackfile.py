@@ -19,9 +19,10 @@ from .media import Air
 from .stack import Stack
 from .units import parse_dimensionless, parse_quantity
 
-__all__ = ["load_stack", "parse_air", "parse_layer", "parse_stack", "read_toml"]
+__all__ = ["layer_is_structure", "load_stack", "parse_air", "parse_layer", "parse_stack",
+           "read_toml"]
 
-_LAYER_META = ("type", "use", "name", *META_KEYS)
+_LAYER_META = ("type", "use", "name", "structure", *META_KEYS)
 
 
 def read_toml(path) -> dict:
@@ -94,6 +95,8 @@ def parse_layer(table, file: str, where: str, catalog, errors: list):
         return None, "?"
     table = dict(table)
     label = table.get("name")
+    if not isinstance(table.get("structure", False), bool):
+        errors.append(InputError(file, f"{where}.structure", "expected true or false"))
     if "use" in table:
         key = table.pop("use")
         try:
@@ -136,6 +139,18 @@ def parse_layer(table, file: str, where: str, catalog, errors: list):
     except LayerValueError as exc:
         errors.append(InputError(file, f"{where}.{exc.key}", exc.reason))
         return None, label or kind
+
+
+def layer_is_structure(table, catalog) -> bool:
+    """Whether a ``[[layer]]`` entry belongs to the airframe (its mass is not the
+    treatment's): its own ``structure`` key, else its catalog entry's, else True for
+    catalog skins (``use = "skin.*"``)."""
+    if "structure" in table:
+        return bool(table["structure"])
+    key = table.get("use")
+    if isinstance(key, str) and key in catalog:
+        return bool(catalog.entries[key].get("structure", key.startswith("skin.")))
+    return False
 
 
 def parse_air(table, file: str, where: str, errors: list, default: Air | None = None):
