@@ -101,6 +101,7 @@ class Leak:
 
     aperture: object
     behind_layer: int = 0
+    name: str = ""
 
     @property
     def area(self) -> float:

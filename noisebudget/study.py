@@ -360,7 +360,7 @@ def _leak(t, file, where, errors):
     if len(errors) > before:
         return None
     aperture = Slit(**size) if shape == "slit" else Hole(**size, count=t.get("count", 1))
-    return Leak(aperture, t.get("behind_layer", 0))
+    return Leak(aperture, t.get("behind_layer", 0), str(t.get("name", "")))
 
 
 def _leaks(spec, stack, area, file, where, errors):

@@ -8,7 +8,8 @@ releases the GIL inside its large array operations).
 
 A leak behind the first k layers of a stack transmits ``tau_front(f) * tau_leak(f)``,
 with ``tau_front`` the transmission of those layers into the cavity air (the leak then
-joins the cavity air to the cabin); the band value is the band average of that product.
+joins the cavity air to the cabin); the band value is the band average of that product,
+to a relative accuracy of 1 % (0.04 dB; a leak is one path of several).
 """
 
 from __future__ import annotations
@@ -22,6 +23,8 @@ import numpy as np
 from .bands import Bands, band_average
 
 __all__ = ["zone_transmissions"]
+
+_LEAK_RTOL = 1e-2
 
 
 def _leak_function(stack, behind: int, leaks, incidence, theta_max_deg):
@@ -37,7 +40,8 @@ def _leak_function(stack, behind: int, leaks, incidence, theta_max_deg):
         total = sum(lk.area * lk.aperture.average_transmission(f, incidence, theta_max_deg,
                                                                 *airs) for lk in leaks)
         if front is not None:
-            total = total * front.average_transmission(f, incidence, theta_max_deg)
+            total = total * front.average_transmission(f, incidence, theta_max_deg,
+                                                       3 * _LEAK_RTOL)
         return total
 
     return area
@@ -72,7 +76,8 @@ def zone_transmissions(inp, bands: Bands, tone_hz) -> dict:
             for behind, group in _groups(pkg.leaks.get(z.name, ())).items():
                 fn = _leak_function(s, behind, group, inc, tmax)
                 key = (id(s), behind, group)
-                tasks.setdefault(("leak",) + key, lambda fn=fn: band_average(fn, bands))
+                tasks.setdefault(("leak",) + key, lambda fn=fn: band_average(fn, bands,
+                                                                                _LEAK_RTOL))
                 if tone_hz.size:
                     tasks.setdefault(("leak-tone",) + key, lambda fn=fn: fn(tone_hz))
     done = _run(tasks)
