@@ -28,11 +28,13 @@ diffuse-field TL applied to it is an engineering approximation.
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from .bands import Bands, energy_sum, log_interp
+from .errors import ModelRangeWarning
 
 __all__ = ["PATHS", "Condition", "Curve", "InteriorSource", "Leak", "Package", "StudyInputs",
            "StudyResult", "Zone", "add_tone_energy", "compute_budget", "interior_levels",
@@ -320,6 +322,12 @@ def budget_arrays(inp: StudyInputs, bands: Bands, tones: dict, trans) -> dict:
     # path transmission coefficients per zone area
     flank_tl = _flanking(inp, nom)                                            # (P, Z, B)
     tau = _path_tau(trans["wall"], trans["leak_area"], trans["open_area"], areas, flank_tl)
+    over = (trans["leak_area"] / areas[:, None] + 10 ** (-flank_tl / 10) > 1).any(axis=(0, 2))
+    if over.any():
+        names = ", ".join(z.name for z, o in zip(zones, over, strict=True) if o)
+        warnings.warn(f"zone {names}: leaks and flanking pass more than falls on the zone; "
+                      "its transmission is capped at 1 (apertures so large are outside the "
+                      "leak model)", ModelRangeWarning, stacklevel=2)
     energy = path_energy(np.where(in_cond[:, None, :], incident, -np.inf), tau, areas,
                          trans["absorption"])
     # tones
@@ -343,23 +351,29 @@ def budget_arrays(inp: StudyInputs, bands: Bands, tones: dict, trans) -> dict:
 
 
 def _path_tau(wall, leak_area, open_area, areas, flank_tl) -> np.ndarray:
-    """(3, P, Z, n) transmission per zone area of the wall, leak and flanking paths."""
+    """(3, P, Z, n) transmission per zone area of the wall, leak and flanking paths.
+
+    A zone cannot pass more power than falls on it: where the paths add up to more than
+    1 (leaks covering much of a zone, outside the leak model's validity of apertures
+    far apart), all three are scaled down to a total of 1.
+    """
     s = areas[None, :, None]
     with np.errstate(over="ignore"):
         flank = np.where(np.isfinite(flank_tl), 10 ** (-flank_tl / 10), 0.0)
-    return np.stack([(1 - open_area[..., None] / s) * wall, leak_area / s, flank])
+    tau = np.stack([(1 - open_area[..., None] / s) * wall, leak_area / s, flank])
+    return tau / np.maximum(tau.sum(axis=0), 1.0)
 
 
 def _flanking(inp: StudyInputs, f_hz) -> np.ndarray:
     """(P, Z, n) flanking TL at ``f_hz`` (inf where a zone has no flanking path)."""
+    from .zone_paths import distinct_items
+
     f_hz = np.asarray(f_hz, dtype=float)
-    out = np.full((len(inp.packages), len(inp.zones), f_hz.size), np.inf)
-    for p, pkg in enumerate(inp.packages):  # packages x zones: curve look-ups only
-        for z, zone in enumerate(inp.zones):
-            curve = pkg.flanking.get(zone.name, zone.flanking_tl)
-            if curve is not None and f_hz.size:
-                out[p, z] = curve.at(f_hz)
-    return out
+    curves, index = distinct_items([[pkg.flanking.get(z.name, z.flanking_tl)
+                                     for z in inp.zones] for pkg in inp.packages], repr)
+    values = np.stack([np.full(f_hz.shape, np.inf) if c is None or not f_hz.size
+                       else c.at(f_hz) for c in curves])   # distinct curves: a handful
+    return values[index]
 
 
 def _source_energy(inp: StudyInputs, bands: Bands) -> np.ndarray:

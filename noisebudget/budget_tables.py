@@ -199,16 +199,18 @@ def _summary(inp, a, total, pkgs, conds) -> pd.DataFrame:
 
 def _zone_mass(inp):
     """(P, Z) arrays: stack, treatment (non-structure layers) and installation kg/m^2."""
-    shape = (len(inp.packages), len(inp.zones))
-    stack, treat, inst = np.zeros(shape), np.zeros(shape), np.zeros(shape)
-    for p, pkg in enumerate(inp.packages):  # per stack: sums over its layers
-        for z, zone in enumerate(inp.zones):
-            s = pkg.stacks[zone.name]
-            flags = pkg.structure.get(zone.name, (False,) * len(s.layers))
-            masses = np.array([layer.areal_mass for layer in s.layers])
-            stack[p, z] = masses.sum()
-            treat[p, z] = masses[~np.array(flags, dtype=bool)].sum()
-            inst[p, z] = pkg.installation.get(zone.name, pkg.installation_mass)
+    from .zone_paths import distinct_items
+
+    grid = [[(pkg.stacks[z.name], pkg.structure.get(z.name)) for z in inp.zones]
+            for pkg in inp.packages]
+    items, index = distinct_items(grid, lambda x: (id(x[0]), x[1]))
+    masses = [np.array([layer.areal_mass for layer in s.layers]) for s, _ in items]
+    flags = [np.zeros(len(m), bool) if f is None else np.array(f, bool)
+             for m, (_, f) in zip(masses, items, strict=True)]
+    stack = np.array([m.sum() for m in masses])[index]
+    treat = np.array([m[~f].sum() for m, f in zip(masses, flags, strict=True)])[index]
+    inst = np.array([[pkg.installation.get(z.name, pkg.installation_mass) for z in inp.zones]
+                     for pkg in inp.packages])
     return stack, treat, inst
 
 

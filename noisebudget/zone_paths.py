@@ -22,7 +22,7 @@ import numpy as np
 
 from .bands import Bands, band_average
 
-__all__ = ["zone_transmissions"]
+__all__ = ["distinct_items", "zone_transmissions"]
 
 _LEAK_RTOL = 1e-2
 
@@ -50,6 +50,9 @@ def _leak_function(stack, behind: int, leaks, incidence, theta_max_deg):
 def zone_transmissions(inp, bands: Bands, tone_hz) -> dict:
     """Transmission of each package's zones over ``bands`` and at ``tone_hz``.
 
+    Each distinct stack and each distinct set of leaks (with its stack) is computed once;
+    the results are gathered onto the (package, zone) grid by index arrays.
+
     Returns
     -------
     dict of arrays
@@ -61,47 +64,57 @@ def zone_transmissions(inp, bands: Bands, tone_hz) -> dict:
     zones, pkgs = inp.zones, inp.packages
     tone_hz = np.asarray(tone_hz, dtype=float)
     inc, tmax = inp.incidence, inp.theta_max_deg
+    stacks, s_idx = distinct_items([[p.stacks[z.name] for z in zones] for p in pkgs], id)
+    leak_sets, l_idx = distinct_items([[(p.stacks[z.name], p.leaks.get(z.name, ())) for z in zones]
+                                  for p in pkgs], lambda x: (id(x[0]), x[1]))
     tasks = {}
-    for pkg in pkgs:  # collect distinct work: packages x zones, a handful each
-        for z in zones:
-            s = pkg.stacks[z.name]
-            tasks.setdefault(("band", id(s)), lambda s=s: 10 ** (
-                -s.band_transmission_loss(bands, inc, tmax) / 10))
-            if tone_hz.size:
-                tasks.setdefault(("tone", id(s)), lambda s=s: s.average_transmission(
-                    tone_hz, inc, tmax))
-            if inp.include_package_absorption:
-                tasks.setdefault(("absorb", id(s)), lambda s=s: s.reversed(
-                    ).random_incidence_absorption(bands.centre, "receiver"))
-            for behind, group in _groups(pkg.leaks.get(z.name, ())).items():
-                fn = _leak_function(s, behind, group, inc, tmax)
-                key = (id(s), behind, group)
-                tasks.setdefault(("leak",) + key, lambda fn=fn: band_average(fn, bands,
-                                                                                _LEAK_RTOL))
-                if tone_hz.size:
-                    tasks.setdefault(("leak-tone",) + key, lambda fn=fn: fn(tone_hz))
+    for i, s in enumerate(stacks):
+        tasks["band", i] = lambda s=s: 10 ** (-s.band_transmission_loss(bands, inc, tmax) / 10)
+        tasks["tone", i] = lambda s=s: s.average_transmission(tone_hz, inc, tmax) \
+            if tone_hz.size else np.empty(0)
+        if inp.include_package_absorption:
+            tasks["absorb", i] = lambda s=s: s.reversed().random_incidence_absorption(
+                bands.centre, "receiver")
+    for i, (s, leaks) in enumerate(leak_sets):
+        fns = [_leak_function(s, k, group, inc, tmax) for k, group in _groups(leaks).items()]
+        tasks["leak", i] = lambda fns=fns: band_average(
+            lambda f: sum(fn(f) for fn in fns), bands, _LEAK_RTOL) if fns else \
+            np.zeros(len(bands))
+        tasks["leak-tone", i] = lambda fns=fns: sum((fn(tone_hz) for fn in fns),
+                                                    np.zeros(tone_hz.size))
     done = _run(tasks)
-    shape = (len(pkgs), len(zones))
-    out = {"wall": np.zeros(shape + (len(bands),)), "leak_area": np.zeros(shape + (len(bands),)),
-           "wall_tone": np.zeros(shape + (tone_hz.size,)),
-           "leak_tone_area": np.zeros(shape + (tone_hz.size,)), "open_area": np.zeros(shape),
-           "absorption": np.tile(inp.cabin_area_m2[inp.cabin_bands.index(bands.nominal)],
-                                 (len(pkgs), 1)), "tone_hz": tone_hz}
-    for p, pkg in enumerate(pkgs):  # scatter the results into the arrays
-        for z, zone in enumerate(zones):
-            s = pkg.stacks[zone.name]
-            out["wall"][p, z] = done[("band", id(s))]
-            if tone_hz.size:
-                out["wall_tone"][p, z] = done[("tone", id(s))]
-            if inp.include_package_absorption:
-                out["absorption"][p] += zone.area * done[("absorb", id(s))]
-            leaks = pkg.leaks.get(zone.name, ())
-            out["open_area"][p, z] = sum(lk.area for lk in leaks)
-            for behind, group in _groups(leaks).items():
-                out["leak_area"][p, z] += done[("leak", id(s), behind, group)]
-                if tone_hz.size:
-                    out["leak_tone_area"][p, z] += done[("leak-tone", id(s), behind, group)]
-    return out
+
+    def gather(kind, n, index):
+        return np.stack([done[kind, i] for i in range(n)])[index]
+
+    absorption = inp.cabin_area_m2[inp.cabin_bands.index(bands.nominal)][None, :]
+    if inp.include_package_absorption:
+        areas = np.array([z.area for z in zones])
+        absorption = absorption + np.sum(areas[None, :, None] * gather(
+            "absorb", len(stacks), s_idx), axis=1)
+    return {"wall": gather("band", len(stacks), s_idx),
+            "wall_tone": gather("tone", len(stacks), s_idx),
+            "leak_area": gather("leak", len(leak_sets), l_idx),
+            "leak_tone_area": gather("leak-tone", len(leak_sets), l_idx),
+            "open_area": np.array([sum(lk.area for lk in leaks) for _, leaks in leak_sets]
+                                  )[l_idx],
+            "absorption": np.broadcast_to(absorption, (len(pkgs), len(bands))).copy(),
+            "tone_hz": tone_hz}
+
+
+def distinct_items(grid, key):
+    """The distinct items of a nested (P, Z) list (by ``key(item)``) and the (P, Z) index
+    array into them."""
+    seen, items = {}, []
+    index = np.zeros((len(grid), len(grid[0]) if grid else 0), dtype=int)
+    for p, row in enumerate(grid):  # a handful of packages and zones: object look-ups
+        for z, item in enumerate(row):
+            k = key(item)
+            if k not in seen:
+                seen[k] = len(items)
+                items.append(item)
+            index[p, z] = seen[k]
+    return items, index
 
 
 def _groups(leaks) -> dict:
