@@ -40,7 +40,7 @@ PLAUSIBLE = ["25 mm", "0 mm", "-1 mm", "1 kg/m^2", "2780 kg/m^3", "73 GPa", "20 
              "80 N/m", "20 m^2", "0.5 s", "102 Hz", "1 g", "20000 Pa*s/m^2", "nan mm",
              "1e400 m", "plate", "air", "septum", "porous", "tile", "jca", "delany-bazley",
              "field", "diffuse", "floating", "clamped", "skin.al2024-t3-1.6mm",
-             "tile.bpf-102-floating", "part.toml", "wall", "window", "bare", "cruise", "",
+             "tile.bpf-105-floating", "part.toml", "wall", "window", "bare", "cruise", "",
              "$x^2$", "a\x07b", [100, 125, 160, 200, 250], [100, 101, 102, 101, 100],
              ["0.5 s"] * 5, 0, 1, 0.3, 0.98, 78, 90, 91, -5, 1e6, True, False]
 

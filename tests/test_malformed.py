@@ -45,7 +45,7 @@ youngs_modulus = "20 GPa"
 poisson_ratio = 0.3
 loss_factor = 0.02
 [[layer]]
-use = "tile.bpf-102-floating"
+use = "tile.bpf-105-floating"
 '''
 
 BANDS = "[100, 125, 160, 200, 250]"
@@ -146,10 +146,10 @@ REFUSED = [
          "expected a layer table, got integer 1"),
     Case("no-layers", S, None, 'title = "nothing"\n', "layer",
          "missing: need at least one [[layer]]"),
-    Case("cell-string", S, 'use = "tile.bpf-102-floating"',
+    Case("cell-string", S, 'use = "tile.bpf-105-floating"',
          'type = "tile"\npitch = "22 mm"\nframe = "clamped"\ncell = "round"', "layer[5].cell",
          "expected an array of tables ([[cell]]), got string"),
-    Case("cell-number", S, 'use = "tile.bpf-102-floating"',
+    Case("cell-number", S, 'use = "tile.bpf-105-floating"',
          'type = "tile"\npitch = "22 mm"\nframe = "clamped"\ncell = [1]', "layer[5].cell[1]",
          "expected a table, got integer 1"),
     Case("air-string", S, '[source_air]\ntemperature = "-40 degC"\npressure = "30 kPa"\n',
@@ -304,22 +304,22 @@ REFUSED = [
          "layer[1].use", "'membrane.latex' is a membrane material, not a layer"),
     Case("use-contradicts-type", S, 'use = "skin.al2024-t3-1.6mm"',
          'use = "skin.al2024-t3-1.6mm"\ntype = "septum"', "layer[1].type", "contradicts"),
-    Case("tile-tension-twice", S, 'use = "tile.bpf-102-floating"',
+    Case("tile-tension-twice", S, 'use = "tile.bpf-105-floating"',
          'type = "tile"\npitch = "22 mm"\nframe = "clamped"\n[[layer.cell]]\nradius = "10 mm"\n'
          'membrane_thickness = "0.2 mm"\nmembrane_density = "1000 kg/m^3"\ntension = "80 N/m"\n'
          'prestress = "1 MPa"', "layer[5].cell[1].prestress", "give tension or prestress, "
          "not both"),
-    Case("tile-shares", S, 'use = "tile.bpf-102-floating"',
+    Case("tile-shares", S, 'use = "tile.bpf-105-floating"',
          'type = "tile"\npitch = "22 mm"\nframe = "clamped"\n[[layer.cell]]\nradius = "10 mm"\n'
          'membrane_thickness = "0.2 mm"\nmembrane_density = "1000 kg/m^3"\ntension = "80 N/m"\n'
          "share = 0.5", "layer[5].cell", "shares must sum to 1"),
-    Case("tile-disk-too-big", S, 'use = "tile.bpf-102-floating"',
-         'use = "tile.bpf-102-floating"\ncell = [{ radius = "5 mm", membrane_thickness = '
+    Case("tile-disk-too-big", S, 'use = "tile.bpf-105-floating"',
+         'use = "tile.bpf-105-floating"\ncell = [{ radius = "5 mm", membrane_thickness = '
          '"0.2 mm", membrane_density = "1000 kg/m^3", tension = "80 N/m", mass = "1 g", '
          'mass_radius = "6 mm" }]', "layer[5].cell[1].mass_radius", "must be smaller"),
     Case("include-missing", T, 'stack = "part.toml"', 'stack = "nope.toml"',
          "package[1].zone.wall.stack", "nope.toml: file not found"),
-    Case("include-cycle", S, 'use = "tile.bpf-102-floating"', 'stack = "loop.toml"',
+    Case("include-cycle", S, 'use = "tile.bpf-105-floating"', 'stack = "loop.toml"',
          "layer[2].stack", "include cycle: loop.toml -> loop.toml", "loop.toml"),
     Case("stack-given-to-check", T, None, STACK, "layer", "unknown key"),
     Case("study-given-to-tl", S, None, STUDY, "study", "unknown key"),

@@ -8,8 +8,8 @@ __all__ = ["CAUTIONS", "report_targets", "write_reports"]
 
 CAUTIONS = (
     "Every number in this report is an engineering estimate from idealised models "
-    "(laterally infinite flat layers; no frames, stringers, curvature, leaks, flanking or "
-    "structure-borne paths).",
+    "(laterally infinite flat layers; no frames, stringers or curvature; leaks by idealised "
+    "aperture models; flanking and structure-borne noise only as the study states them).",
     "Certified laboratory and flight testing decide: ASTM E90 / ISO 10140 for transmission "
     "loss, ASTM E2611 for impedance-tube samples, and in-flight surveys for cabin levels.",
     "Airworthiness requirements, cabin-material flammability rules (e.g. 14 CFR 25.853 and "

@@ -113,17 +113,18 @@ def contribution_bars(contrib, condition, packages) -> str:
     from ..bands import a_weighting, third_octave_bands
 
     plt = _plt()
-    zones = list(dict.fromkeys(contrib["zone"]))
+    zones = list(dict.fromkeys(contrib[contrib["condition"] == condition]["zone"]))
     fig, ax = plt.subplots(figsize=(5.5, 2.4))
     bottom = np.zeros(len(packages))
     for z in zones:
         shares = []
         for p in packages:
             d = contrib[(contrib["package"] == p) & (contrib["condition"] == condition)]
-            aw = a_weighting(third_octave_bands(d["band_hz"].min(), d["band_hz"].max()).centre)
-            e = {zz: np.sum(10 ** ((g["interior_db"].to_numpy() + aw) / 10))
-                 for zz, g in d.groupby("zone", sort=False)}
-            shares.append(100 * e[z] / sum(e.values()))
+            b = third_octave_bands(d["band_hz"].min(), d["band_hz"].max())
+            aw = d["band_hz"].map(dict(zip(b.nominal, a_weighting(b.centre), strict=True)))
+            d = d.assign(e=10 ** ((d["interior_db"] + aw) / 10))  # rows: zones and paths
+            e = d.groupby("zone", sort=False)["e"].sum()
+            shares.append(100 * e.get(z, 0.0) / e.sum())
         ax.barh(packages, shares, left=bottom, label=z)
         bottom += np.array(shares)
     ax.set_xlabel("share of interior A-weighted energy (%)")

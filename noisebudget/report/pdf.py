@@ -95,7 +95,7 @@ def _context(result, study_path: Path) -> dict:
     rat = result.ratings
     summary_rows = []
     for _, r in s.iterrows():
-        side = rat[(rat["package"] == r["package"])].iloc[0]
+        side = rat[(rat["package"] == r["package"]) & (rat["zone"] == "composite")].iloc[0]
         summary_rows.append({**r.to_dict(), "stc": side["stc"], "rw": side["rw"],
                              "rating_zone": side["zone"]})
     limit = inp.targets.get("limit")
