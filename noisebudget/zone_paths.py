@@ -81,7 +81,8 @@ def zone_transmissions(inp, bands: Bands, tone_hz) -> dict:
             lambda f: sum(fn(f) for fn in fns), bands, _LEAK_RTOL) if fns else \
             np.zeros(len(bands))
         tasks["leak-tone", i] = lambda fns=fns: sum((fn(tone_hz) for fn in fns),
-                                                    np.zeros(tone_hz.size))
+                                                    np.zeros(tone_hz.size)) \
+            if tone_hz.size else np.zeros(0)
     done = _run(tasks)
 
     def gather(kind, n, index):

@@ -339,3 +339,15 @@ def test_a_zone_never_passes_more_than_falls_on_it(tmp_path):
     sums = res.contributions.groupby("band_hz")["interior_db"].apply(
         lambda v: 10 * np.log10(np.sum(10 ** (v / 10))))
     np.testing.assert_allclose(sums.to_numpy(), res.bands["interior_db"], atol=1e-9)
+
+
+def test_leaks_in_a_study_without_tones(tmp_path):
+    cond = (f'[[condition]]\nname = "flat"\nbands_hz = {BANDS}\n'
+            f'levels_db = {[90.0] * len(BANDS)}\n')
+    pkg = ('[[package]]\nname = "septum"\n[package.zone.wall]\n'
+           'layer = [{ type = "septum", surface_density = "10 kg/m^2" }, { type = "air", '
+           'thickness = "20 mm" }, { type = "septum", surface_density = "2 kg/m^2" }]\n'
+           '[[package.zone.wall.leak]]\nshape = "slit"\nwidth = "1 mm"\nlength = "1 m"\n'
+           'depth = "5 mm"\nbehind_layer = 2\n')
+    res = run(tmp_path, study(condition=cond, package=pkg))
+    assert res.tones.empty and np.isfinite(res.summary["interior_dba"]).all()
