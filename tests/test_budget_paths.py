@@ -341,6 +341,30 @@ def test_a_zone_never_passes_more_than_falls_on_it(tmp_path):
     np.testing.assert_allclose(sums.to_numpy(), res.bands["interior_db"], atol=1e-9)
 
 
+def test_a_zone_given_in_a_package_replaces_what_it_inherited(tmp_path):
+    # based_on copies stack, leaks and flanking value of each zone; a zone the package
+    # gives itself starts afresh (its own stack, no leak, the zone's flanking TL)
+    pkgs = ('[[package]]\nname = "leaky"\n[package.zone.wall]\n'
+            'layer = [{ type = "septum", surface_density = "10 kg/m^2" }]\n'
+            'flanking_tl_db = 40\n'
+            '[[package.zone.wall.leak]]\nshape = "hole"\ndiameter = "5 mm"\ndepth = "2 mm"\n'
+            'count = 10\n'
+            '[[package]]\nname = "copy"\nbased_on = "leaky"\n'
+            '[[package]]\nname = "sealed"\nbased_on = "leaky"\n[package.zone.wall]\n'
+            'layer = [{ type = "septum", surface_density = "10 kg/m^2" }]\n')
+    path = tmp_path / "s.toml"
+    path.write_text(study(zone="flanking_tl_db = 60", package=pkgs))
+    leaky, copy, sealed = nb.load_study(path).inputs.packages
+    assert copy.leaks == leaky.leaks and len(leaky.leaks["wall"]) == 1
+    assert copy.flanking == leaky.flanking and copy.stacks["wall"] is leaky.stacks["wall"]
+    assert sealed.leaks == {"wall": ()} and sealed.flanking == {}
+    res = nb.run_study(path)
+    paths = res.contributions.groupby("package")["path"].unique()
+    assert "leak" in paths["copy"] and "leak" not in paths["sealed"]
+    ztl = res.tl.set_index(["package", "band_hz"])["zone_tl_db"]
+    assert ztl["sealed"].max() < 60.0 + 1e-6 and ztl["copy"].max() < 40.0 + 1e-6
+
+
 def test_leaks_in_a_study_without_tones(tmp_path):
     cond = (f'[[condition]]\nname = "flat"\nbands_hz = {BANDS}\n'
             f'levels_db = {[90.0] * len(BANDS)}\n')
@@ -351,3 +375,25 @@ def test_leaks_in_a_study_without_tones(tmp_path):
            'depth = "5 mm"\nbehind_layer = 2\n')
     res = run(tmp_path, study(condition=cond, package=pkg))
     assert res.tones.empty and np.isfinite(res.summary["interior_dba"]).all()
+
+
+def test_structure_of_inserted_layers_and_catalog_skins(tmp_path):
+    (tmp_path / "frame.toml").write_text(
+        '[[layer]]\ntype = "septum"\nsurface_density = "3 kg/m^2"\n'
+        '[[layer]]\ntype = "septum"\nsurface_density = "1 kg/m^2"\n')
+    pkg = ('[[package]]\nname = "p"\n[package.zone.wall]\n'
+           'layer = [{ use = "skin.al2024-t3-1.6mm", structure = false },\n'
+           '         { stack = "frame.toml", structure = true },\n'
+           '         { use = "skin.al2024-t3-1.6mm" },\n'
+           '         { type = "septum", surface_density = "2 kg/m^2" }]\n')
+    path = tmp_path / "s.toml"
+    path.write_text(study(package=pkg))
+    (p,) = nb.load_study(path).inputs.packages
+    # a catalog skin is structure unless it says otherwise; an inserted file's layers
+    # all take the entry's value
+    assert p.structure["wall"] == (False, True, True, True, False)
+    res = nb.run_study(path)
+    skin = 2780 * 1.6e-3                          # 2024-T3 sheet, catalog demo value
+    m = res.mass.set_index("zone").loc["wall"]
+    assert m["treatment_kg_m2"] == pytest.approx(skin + 2)
+    assert m["stack_kg_m2"] == pytest.approx(2 * skin + 3 + 1 + 2)
