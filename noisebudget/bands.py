@@ -13,12 +13,14 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["Bands", "G", "a_weighting", "band_average", "bands_between",
-           "c_weighting", "energy_mean", "energy_sum", "log_grid", "nominal_label",
-           "octave_bands", "third_octave_bands", "third_to_octave", "weighting",
-           "z_weighting"]
+__all__ = ["Bands", "G", "OCTAVE_SPLIT_DB", "a_weighting", "band_average", "bands_between",
+           "c_weighting", "energy_mean", "energy_sum", "log_grid", "log_interp",
+           "nominal_label", "octave_bands", "octave_to_thirds", "third_octave_bands",
+           "third_to_octave", "weighting", "z_weighting"]
 
 G = 10 ** 0.3
+#: level of each one-third octave of an octave split with equal energy: -10 lg 3
+OCTAVE_SPLIT_DB = -10 * np.log10(3.0)
 _R10 = (1.0, 1.25, 1.6, 2.0, 2.5, 3.15, 4.0, 5.0, 6.3, 8.0)
 _F1, _F2, _F3, _F4 = 20.598997, 107.65265, 737.86223, 12194.217  # IEC 61672-1 Annex E
 
@@ -237,3 +239,36 @@ def third_to_octave(thirds: Bands, levels_db) -> tuple[Bands, np.ndarray]:
     k = np.array(keep, dtype=int)
     sub = Bands(1, octs.centre[k], octs.lower[k], octs.upper[k], octs.nominal[k])
     return sub, np.stack(out, axis=-1) if out else np.empty(lv.shape[:-1] + (0,))
+
+
+def octave_to_thirds(octaves: Bands, values, kind: str = "level") -> tuple[Bands, np.ndarray]:
+    """The three one-third-octave bands of each octave, with values carried over.
+
+    ``kind="level"`` splits each octave level into three thirds of equal energy,
+    ``L - 10 lg 3`` (-4.77 dB each, common practice); ``kind="copy"`` copies an
+    intensive quantity (a reverberation time, an absorption area) to each third. The
+    last axis of ``values`` runs over the octaves.
+    """
+    if kind not in ("level", "copy"):
+        raise ValueError("kind must be 'level' or 'copy'")
+    thirds = bands_between(octaves.lower[0] * 1.05, octaves.upper[-1] / 1.05, 3)
+    v = np.repeat(np.asarray(values, dtype=float), 3, axis=-1)
+    return thirds, v + OCTAVE_SPLIT_DB if kind == "level" else v
+
+
+def log_interp(f_hz, points_hz, values) -> np.ndarray:
+    """Values at ``f_hz`` from values given at ``points_hz``: linear in lg f between the
+    points, held constant outside them (one value: constant everywhere).
+
+    ``points_hz`` must be increasing; ``values`` has one entry per point (its last
+    axis).
+    """
+    f = np.log10(np.asarray(f_hz, dtype=float))
+    vals = np.asarray(values, dtype=float)
+    pts = np.atleast_1d(np.asarray(points_hz, dtype=float))
+    if vals.shape[-1] == 1:
+        return np.broadcast_to(vals, vals.shape[:-1] + f.shape).astype(float)
+    x = np.log10(pts)
+    i = np.clip(np.searchsorted(x, f), 1, x.size - 1)
+    w = np.clip((f - x[i - 1]) / (x[i] - x[i - 1]), 0.0, 1.0)
+    return vals[..., i - 1] * (1 - w) + vals[..., i] * w

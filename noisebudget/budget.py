@@ -1,33 +1,48 @@
-"""The noise and mass budget: zones, composite TL, interior levels, tones, targets, mass.
+"""The noise and mass budget: every path into the cabin, as array algebra.
 
-Pure functions on arrays and DataFrames; no file parsing here.
+Pure functions on arrays; no file parsing here. Tables are built once, at the end, by
+:mod:`noisebudget.budget_tables`.
 
 Interior level in the cabin's reverberant field (ISO 10140-2 / ISO 16283-1 relation
-``R = L1 - L2 + 10 lg(S / A)`` rearranged): for each zone i of area S_i and band TL_i,
-``L_int = 10 lg sum_i 10^((L_inc - TL_i + 10 lg(S_i / A)) / 10)``, where ``L_inc`` is the
-incident diffuse-field level: the exterior level as given, or the blocked surface pressure
-level minus 6.02 dB (pressure doubling). The cabin absorption area ``A`` comes from
-Sabine's formula ``A = 0.161 V / T60`` or ``A = alpha S``. Composite TL of a wall:
-``tau_c = sum S_i tau_i / sum S_i`` (Bies & Hansen, Engineering Noise Control, ch. 7).
-Tones are transmitted with the narrowband TL at their own frequency and added as energy
-to the band they fall in. A turbulent boundary layer is not an acoustic field: a
+``R = L1 - L2 + 10 lg(S / A)`` rearranged). For package p, condition c, zone z and band
+b, each path k (``wall``, ``leak``, ``flanking``) carries the mean-square pressure::
+
+    E[k, p, c, z, b] = 10^((L[c, b] + O[z, b]) / 10) tau[k, p, z, b] S_z / A[p, b]
+
+where ``L`` is the incident diffuse-field level (the exterior level as given, or the
+blocked surface pressure level minus 6.02 dB), ``O`` the zone's exterior offset, ``S_z``
+the zone's area and ``A`` the cabin's absorption area (Sabine, ``A = 0.161 V / T60``).
+The zone's transmission coefficient is split by path::
+
+    tau_wall = (S_z - sum S_l) tau_package / S_z,   tau_leak = sum S_l tau_l / S_z,
+    tau_flanking = 10^(-F_z / 10)
+
+(composite TL, Bies & Hansen, Engineering Noise Control, ch. 7; flanking in parallel
+with the package). Tones are transmitted with the narrowband transmission coefficients
+at their own frequencies (and the offset there) and added as energy to the band they
+fall in (``np.add.at``). Interior sources (air conditioning, structure-borne noise) are
+sound pressure levels in the cabin, added as energy. Interior levels are ``10 lg`` of
+sums over these axes. A turbulent boundary layer is not an acoustic field: a
 diffuse-field TL applied to it is an engineering approximation.
 """
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
-import pandas as pd
 
-from .bands import Bands, a_weighting, energy_sum, third_to_octave
-from .ratings import RatingError, ratings, sil4
-from .stack import TL_CAP_DB
+from .bands import Bands, energy_sum, log_interp
+from .errors import ModelRangeWarning
 
-__all__ = ["Condition", "Package", "StudyInputs", "StudyResult", "Zone",
-           "compute_budget", "interior_levels", "sabine_area"]
+__all__ = ["PATHS", "Condition", "Curve", "InteriorSource", "Leak", "Package", "StudyInputs",
+           "StudyResult", "Zone", "add_tone_energy", "compute_budget", "interior_levels",
+           "path_energy", "sabine_area"]
 
+#: paths through a zone's wall, in the order of the budget's first axis
+PATHS = ("wall", "leak", "flanking")
+SOURCE_PATH = "interior source"
 SURFACE_TO_INCIDENT_DB = 20 * np.log10(2.0)  # 6.02 dB: blocked surface pressure doubling
 
 
@@ -37,8 +52,24 @@ def sabine_area(volume_m3: float, t60_s) -> np.ndarray:
 
 
 @dataclass(frozen=True)
+class Curve:
+    """A quantity in dB given at a few frequencies (Hz): linear in lg f between them,
+    constant outside; with no frequencies, one value everywhere."""
+
+    points_hz: tuple = ()
+    values_db: tuple = (0.0,)
+
+    def at(self, f_hz) -> np.ndarray:
+        """Values at ``f_hz`` (see :func:`noisebudget.bands.log_interp`)."""
+        return log_interp(f_hz, self.points_hz or (1.0,), self.values_db)
+
+
+@dataclass(frozen=True)
 class Condition:
-    """A flight condition: one-third-octave exterior levels and discrete tones."""
+    """A flight condition: one-third-octave exterior levels and discrete tones.
+
+    ``input_bandwidth`` records whether the file gave octave levels (split into thirds).
+    """
 
     name: str
     bands: Bands
@@ -46,24 +77,85 @@ class Condition:
     tones_hz: np.ndarray = field(default_factory=lambda: np.empty(0))
     tone_levels_db: np.ndarray = field(default_factory=lambda: np.empty(0))
     tone_names: tuple = ()
+    input_bandwidth: str = "third"
 
 
 @dataclass(frozen=True)
 class Zone:
-    """A part of the cabin wall with its area in m^2."""
+    """A part of the cabin wall: area (m^2), exterior offset (dB added to the condition's
+    levels and tones) and an optional flanking path around the packages (its TL)."""
 
     name: str
     area: float
+    exterior_offset: Curve = field(default_factory=Curve)
+    flanking_tl: Curve | None = None
+
+
+@dataclass(frozen=True)
+class Leak:
+    """An aperture (:class:`~noisebudget.apertures.Slit` or ``Hole``) in a zone's package.
+
+    ``behind_layer`` = k > 0 puts the leak behind the package's first k layers (counted
+    from the exterior): they transmit to it, and it bypasses the layers after them. The
+    path is then the product of the two transmission coefficients, an engineering
+    approximation that neglects the build-up of sound in the cavity. 0: through all.
+    """
+
+    aperture: object
+    behind_layer: int = 0
+    name: str = ""
+
+    @property
+    def area(self) -> float:
+        """Open area in m^2."""
+        return self.aperture.area
 
 
 @dataclass(frozen=True)
 class Package:
-    """A treatment package: a stack per zone plus installation mass per area (kg/m^2)."""
+    """A treatment package.
+
+    Parameters
+    ----------
+    name : str
+    stacks : dict
+        Zone name -> :class:`~noisebudget.stack.Stack`.
+    installation_mass : float
+        kg/m^2 of the zones the package defines itself.
+    notes : str
+    leaks : dict
+        Zone name -> tuple of :class:`Leak`.
+    flanking : dict
+        Zone name -> :class:`Curve` overriding the zone's flanking TL.
+    structure : dict
+        Zone name -> tuple of bool, one per layer: True where the layer belongs to the
+        airframe (its mass is not the package's).
+    installation : dict
+        Zone name -> installation mass in kg/m^2 where it differs from
+        ``installation_mass`` (zones taken over from another package keep that
+        package's installation).
+    """
 
     name: str
     stacks: dict
     installation_mass: float = 0.0
     notes: str = ""
+    leaks: dict = field(default_factory=dict)
+    flanking: dict = field(default_factory=dict)
+    structure: dict = field(default_factory=dict)
+    installation: dict = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class InteriorSource:
+    """A sound already inside the cabin (air conditioning, structure-borne noise):
+    interior one-third-octave levels, for the named conditions (None: all)."""
+
+    name: str
+    bands: Bands
+    levels_db: np.ndarray
+    conditions: tuple | None = None
+    input_bandwidth: str = "third"
 
 
 @dataclass(frozen=True)
@@ -83,6 +175,7 @@ class StudyInputs:
     include_package_absorption: bool = False
     targets: dict = field(default_factory=dict)
     meta: dict = field(default_factory=dict)
+    interior_sources: tuple = ()
 
 
 @dataclass
@@ -90,13 +183,13 @@ class StudyResult:
     """Result tables (pandas DataFrames, units in column names)."""
 
     inputs: StudyInputs
-    summary: pd.DataFrame
-    bands: pd.DataFrame
-    contributions: pd.DataFrame
-    tl: pd.DataFrame
-    mass: pd.DataFrame
-    ratings: pd.DataFrame
-    tones: pd.DataFrame
+    summary: object
+    bands: object
+    contributions: object
+    tl: object
+    mass: object
+    ratings: object
+    tones: object
 
     def tables(self) -> dict:
         """All tables by name."""
@@ -124,168 +217,173 @@ def interior_levels(incident_db, tl_by_zone_db, areas, absorption_m2):
     return per_zone, energy_sum(per_zone, axis=0)
 
 
-def _composite_tl(tau_by_zone, areas):
-    tau = np.sum(np.asarray(areas)[:, None] * tau_by_zone, axis=0) / np.sum(areas)
-    return -10 * np.log10(np.maximum(tau, 10 ** (-TL_CAP_DB / 10)))
+def path_energy(incident_db, tau, areas, absorption) -> np.ndarray:
+    """Mean-square pressure (re p0^2) each path brings into the cabin.
+
+    Parameters
+    ----------
+    incident_db : (..., C, Z, B)
+        Incident level of each condition on each zone.
+    tau : (K, ..., P, Z, B)
+        Transmission coefficient of each path, per zone area.
+    areas : (Z,)
+        Zone areas in m^2.
+    absorption : (..., P, B)
+        Cabin absorption area in m^2.
+
+    Returns
+    -------
+    (K, ..., P, C, Z, B) : ``10^(L/10) tau S / A``
+
+    Leading axes (e.g. variants of a trade study) broadcast.
+    """
+    inc = 10 ** (np.asarray(incident_db, dtype=float) / 10)
+    tau = np.asarray(tau, dtype=float)
+    share = np.asarray(areas, dtype=float)[:, None] / np.asarray(absorption)[..., :, None, None, :]
+    return inc[..., None, :, :, :] * tau[..., :, None, :, :] * share
+
+
+def add_tone_energy(energy, tone_incident_db, tone_tau, areas, tone_absorption, condition,
+                    band) -> np.ndarray:
+    """Tone energies, also added in place to ``energy`` at (condition, band) of each tone.
+
+    Parameters
+    ----------
+    energy : (K, P, C, Z, B)
+    tone_incident_db : (Z, T)
+        Incident level of each tone on each zone.
+    tone_tau : (K, P, Z, T)
+        Narrowband transmission coefficients at the tones' frequencies.
+    areas : (Z,)
+    tone_absorption : (P, T)
+        Cabin absorption area in the band of each tone.
+    condition, band : (T,) int
+        Where each tone goes.
+
+    Returns
+    -------
+    (K, P, Z, T) tone energies.
+    """
+    e = (10 ** (np.asarray(tone_incident_db) / 10))[None, None] * tone_tau * (
+        np.asarray(areas)[:, None] / tone_absorption[:, None, :])[None]
+    np.add.at(energy, (slice(None), slice(None), condition, slice(None), band),
+              np.moveaxis(e, -1, 0))
+    return e
 
 
 def compute_budget(inp: StudyInputs) -> StudyResult:
-    """Run the budget for every package and condition."""
-    zones = inp.zones
-    areas = np.array([z.area for z in zones])
-    shift = -SURFACE_TO_INCIDENT_DB if inp.exterior_convention == "surface" else 0.0
-    all_bands = _union_bands(inp)
-    idx_cabin = inp.cabin_bands.index(all_bands.nominal)
-    cabin_a = inp.cabin_area_m2[idx_cabin]
-    a_w = a_weighting(all_bands.centre)
-    rows_sum, rows_band, rows_contrib, rows_tl, rows_mass, rows_rat, rows_tone = ([] for _ in
-                                                                                  range(7))
-    masses = {}
-    band_tl = _band_tl_all(inp, all_bands)  # by id(stack): shared zones computed once
-    tone_f = np.unique(np.concatenate([c.tones_hz for c in inp.conditions]))
-    tone_tau = {}  # by id(stack): narrowband tau at every tone frequency of the study
-    for pkg in inp.packages:  # loop over packages and zones: a handful each
-        stacks = [pkg.stacks[z.name] for z in zones]
-        tl_z = np.array([band_tl[id(s)] for s in stacks])
-        for s in stacks:
-            if tone_f.size and id(s) not in tone_tau:
-                tone_tau[id(s)] = s.average_transmission(tone_f, inp.incidence,
-                                                         inp.theta_max_deg)
-        tau_z = 10 ** (-tl_z / 10)
-        absorption = cabin_a.copy()
-        if inp.include_package_absorption:
-            for s, z in zip(stacks, zones, strict=True):
-                # seen from the cabin; energy transmitted out counts as absorbed
-                absorption = absorption + z.area * s.reversed().random_incidence_absorption(
-                    all_bands.centre, "receiver")
-        for s, z, tl in zip(stacks, zones, tl_z, strict=True):
-            rows_tl += [{"package": pkg.name, "zone": z.name, "band_hz": b, "tl_db": t}
-                        for b, t in zip(all_bands.nominal, tl, strict=True)]
-            try:
-                r = ratings(all_bands.nominal, tl)
-            except RatingError:
-                r = {k: None for k in ("stc", "rw", "c", "ctr", "oitc")}
-            rows_rat.append({"package": pkg.name, "zone": z.name, **r})
-            m = s.areal_mass + pkg.installation_mass
-            rows_mass.append({"package": pkg.name, "zone": z.name, "area_m2": z.area,
-                              "stack_kg_m2": s.areal_mass,
-                              "installation_kg_m2": pkg.installation_mass,
-                              "areal_mass_kg_m2": m, "mass_kg": m * z.area})
-        masses[pkg.name] = sum(r["mass_kg"] for r in rows_mass if r["package"] == pkg.name)
-        tl_c = _composite_tl(tau_z, areas)
-        for cond in inp.conditions:
-            sel = all_bands.index(cond.bands.nominal)
-            inc = cond.levels_db + shift
-            per_zone, _ = interior_levels(inc, tl_z[:, sel], areas, absorption[sel])
-            energy = 10 ** (per_zone / 10)
-            names = cond.tone_names or tuple(f"{f:g} Hz" for f in cond.tones_hz)
-            for f_t, l_t, name in zip(cond.tones_hz, cond.tone_levels_db, names, strict=True):
-                b = cond.bands.containing([f_t])[0]
-                k = np.searchsorted(tone_f, f_t)
-                tau_t = np.array([tone_tau[id(s)][k] for s in stacks])
-                tone_z = (l_t + shift + 10 * np.log10(np.maximum(tau_t, 1e-30))
-                          + 10 * np.log10(areas / absorption[sel][b]))
-                energy[:, b] += 10 ** (tone_z / 10)
-                rows_tone.append({"package": pkg.name, "condition": cond.name, "tone": name,
-                                  "tone_hz": f_t, "exterior_db": l_t,
-                                  "band_hz": cond.bands.nominal[b],
-                                  "tl_db": float(_composite_tl(tau_t[:, None], areas)[0]),
-                                  "interior_db": float(energy_sum(tone_z)),
-                                  "dominant_zone": zones[int(np.argmax(tone_z))].name})
-            with np.errstate(divide="ignore"):
-                per_zone = 10 * np.log10(energy)
-            total = energy_sum(per_zone, axis=0)
-            ext_total = energy_sum(np.append(cond.levels_db, cond.tone_levels_db))
-            ext_a = energy_sum(np.concatenate([cond.levels_db + a_w[sel],
-                                               cond.tone_levels_db + _a_at(cond.tones_hz)]))
-            dba = float(energy_sum(total + a_w[sel]))
-            octs, oct_lv = third_to_octave(cond.bands, total)
-            try:
-                sil = sil4(octs.nominal, oct_lv)
-            except RatingError:
-                sil = float("nan")
-            dominant = [zones[i].name for i in np.argmax(per_zone, axis=0)]
-            for j, b in enumerate(cond.bands.nominal):
-                rows_band.append({"package": pkg.name, "condition": cond.name, "band_hz": b,
-                                  "exterior_db": cond.levels_db[j],
-                                  "composite_tl_db": tl_c[sel][j],
-                                  "interior_db": total[j],
-                                  "noise_reduction_db": cond.levels_db[j] - total[j],
-                                  "dominant_zone": dominant[j]})
-                for i, z in enumerate(zones):
-                    rows_contrib.append({"package": pkg.name, "condition": cond.name,
-                                         "band_hz": b, "zone": z.name,
-                                         "interior_db": per_zone[i, j]})
-            row = {"package": pkg.name, "condition": cond.name,
-                   "interior_dbz": float(energy_sum(total)), "interior_dba": dba,
-                   "sil4_db": sil, "exterior_dbz": float(ext_total),
-                   "exterior_dba": float(ext_a), "noise_reduction_dba": float(ext_a) - dba}
-            row.update(_margins(inp.targets, dba, sil, cond.bands, total))
-            rows_sum.append(row)
-    summary = pd.DataFrame(rows_sum)
-    base_mass = masses[inp.baseline]
-    summary["mass_kg"] = summary["package"].map(masses)
-    summary["added_mass_kg"] = summary["mass_kg"] - base_mass
-    base_dba = summary[summary["package"] == inp.baseline].set_index("condition")["interior_dba"]
-    gain = summary["condition"].map(base_dba) - summary["interior_dba"]
-    with np.errstate(divide="ignore", invalid="ignore"):
-        per_kg = np.where(np.abs(summary["added_mass_kg"]) > 1e-9,
-                          gain / summary["added_mass_kg"], np.nan)
-    summary["dba_gain"] = gain
-    summary["dba_gain_per_kg"] = per_kg
-    return StudyResult(inp, summary, pd.DataFrame(rows_band), pd.DataFrame(rows_contrib),
-                       pd.DataFrame(rows_tl), pd.DataFrame(rows_mass), pd.DataFrame(rows_rat),
-                       pd.DataFrame(rows_tone, columns=["package", "condition", "tone",
-                                                        "tone_hz", "exterior_db", "band_hz",
-                                                        "tl_db", "interior_db",
-                                                        "dominant_zone"]))
+    """Run the budget for every package and condition.
 
-
-def _band_tl_all(inp: StudyInputs, bands: Bands) -> dict:
-    """Band TL of every distinct stack of the study, keyed by ``id(stack)``.
-
-    The stacks are independent, so they are computed on a small thread pool: numpy
-    releases the GIL inside its large array operations, which lets two cores share the
-    work.
+    Three stages: transmission coefficients of every distinct stack and leak (the
+    physics kernel, :func:`noisebudget.zone_paths.zone_transmissions`), the energy
+    arrays (:func:`budget_arrays`), and the tables (:mod:`noisebudget.budget_tables`).
     """
-    import os
-    from concurrent.futures import ThreadPoolExecutor
+    from .budget_tables import build_tables
+    from .zone_paths import zone_transmissions
 
-    unique = {id(s): s for p in inp.packages for s in p.stacks.values()}
-
-    def one(s):
-        return s.band_transmission_loss(bands, inp.incidence, inp.theta_max_deg)
-
-    from .progress import track
-
-    workers = min(len(unique), os.cpu_count() or 1)
-    if workers <= 1:
-        return {k: one(s) for k, s in track(unique.items(), what="transmission loss",
-                                             unit="stack")}
-    with ThreadPoolExecutor(max_workers=workers) as pool:
-        done = track(pool.map(one, unique.values()), len(unique), "transmission loss",
-                     "stack")
-        return dict(zip(unique, done, strict=True))
+    bands = _union_bands(inp)
+    tones = _tones(inp, bands)
+    trans = zone_transmissions(inp, bands, np.unique(tones["hz"]))
+    arrays = budget_arrays(inp, bands, tones, trans)
+    return build_tables(inp, arrays)
 
 
-def _a_at(f_hz):
-    return a_weighting(np.asarray(f_hz, dtype=float)) if len(f_hz) else np.empty(0)
+def _tones(inp: StudyInputs, bands: Bands) -> dict:
+    """Every tone of every condition as flat arrays (condition index, Hz, level, band)."""
+    conds = inp.conditions
+    n = [len(c.tones_hz) for c in conds]
+    hz = np.concatenate([np.asarray(c.tones_hz, dtype=float) for c in conds])
+    names = [name for c in conds for name in
+             (list(c.tone_names) or [""] * len(c.tones_hz))]
+    return {"condition": np.repeat(np.arange(len(conds)), n), "hz": hz,
+            "level_db": np.concatenate([np.asarray(c.tone_levels_db, dtype=float)
+                                        for c in conds]),
+            "band": bands.containing(hz).astype(int) if hz.size else np.empty(0, int),
+            "name": np.array(names, dtype=object)}
 
 
-def _margins(targets, dba, sil, bands, total):
-    out = {}
-    if "dba" in targets:
-        out["target_dba"] = targets["dba"]
-        out["margin_dba"] = targets["dba"] - dba
-    if "sil4" in targets:
-        out["target_sil4_db"] = targets["sil4"]
-        out["margin_sil4_db"] = targets["sil4"] - sil
-    if "limit" in targets:
-        lim_bands, lim = targets["limit"]
-        common = [i for i, b in enumerate(bands.nominal) if b in set(lim_bands)]
-        lookup = dict(zip(lim_bands, lim, strict=True))
-        diffs = [lookup[bands.nominal[i]] - total[i] for i in common]
-        out["margin_limit_db"] = float(min(diffs)) if diffs else float("nan")
+def budget_arrays(inp: StudyInputs, bands: Bands, tones: dict, trans) -> dict:
+    """The budget's arrays: path transmission, energies of paths, tones and sources.
+
+    Returns a dict of plain arrays and coordinates (see the keys); no loop over
+    packages, conditions, zones or bands.
+    """
+    zones, conds = inp.zones, inp.conditions
+    areas = np.array([z.area for z in zones])
+    nom = bands.nominal
+    shift = -SURFACE_TO_INCIDENT_DB if inp.exterior_convention == "surface" else 0.0
+    # exterior levels on the study's bands (conditions differ in range: mask)
+    ext = np.full((len(conds), len(bands)), -np.inf)
+    for i, c in enumerate(conds):  # conditions: a handful; rows of one array
+        ext[i, bands.index(c.bands.nominal)] = c.levels_db
+    in_cond = np.isfinite(ext)
+    offset = np.stack([z.exterior_offset.at(nom) for z in zones])            # (Z, B)
+    incident = ext[:, None, :] + shift + offset[None]                        # (C, Z, B)
+    # path transmission coefficients per zone area
+    flank_tl = _flanking(inp, nom)                                            # (P, Z, B)
+    tau = _path_tau(trans["wall"], trans["leak_area"], trans["open_area"], areas, flank_tl)
+    over = (trans["leak_area"] / areas[:, None] + 10 ** (-flank_tl / 10) > 1).any(axis=(0, 2))
+    if over.any():
+        names = ", ".join(z.name for z, o in zip(zones, over, strict=True) if o)
+        warnings.warn(f"zone {names}: leaks and flanking pass more than falls on the zone; "
+                      "its transmission is capped at 1 (apertures so large are outside the "
+                      "leak model)", ModelRangeWarning, stacklevel=2)
+    energy = path_energy(np.where(in_cond[:, None, :], incident, -np.inf), tau, areas,
+                         trans["absorption"])
+    # tones
+    t_hz = tones["hz"]
+    pick = np.searchsorted(trans["tone_hz"], t_hz)
+    t_tau = _path_tau(trans["wall_tone"][..., pick], trans["leak_tone_area"][..., pick],
+                      trans["open_area"], areas, _flanking(inp, t_hz))
+    t_offset = np.stack([z.exterior_offset.at(t_hz) for z in zones]) if t_hz.size else \
+        np.zeros((len(zones), 0))
+    t_inc = tones["level_db"][None, :] + shift + t_offset
+    tone_energy = add_tone_energy(energy, t_inc, t_tau, areas,
+                                  trans["absorption"][:, tones["band"]], tones["condition"],
+                                  tones["band"])
+    return {"bands": bands, "areas": areas, "exterior_db": ext, "in_condition": in_cond,
+            "tau": tau, "energy": energy, "tone_tau": t_tau, "tone_energy": tone_energy,
+            "tones": tones, "source_energy": _source_energy(inp, bands),
+            "source_names": [s.name for s in inp.interior_sources],
+            "wall_tau": trans["wall"], "wall_tone_tau": trans["wall_tone"][..., pick],
+            "has_leak": trans["open_area"] > 0, "has_flanking": np.isfinite(flank_tl).any(-1),
+            "absorption": trans["absorption"]}
+
+
+def _path_tau(wall, leak_area, open_area, areas, flank_tl) -> np.ndarray:
+    """(3, P, Z, n) transmission per zone area of the wall, leak and flanking paths.
+
+    A zone cannot pass more power than falls on it: where the paths add up to more than
+    1 (leaks covering much of a zone, outside the leak model's validity of apertures
+    far apart), all three are scaled down to a total of 1.
+    """
+    s = areas[None, :, None]
+    with np.errstate(over="ignore"):
+        flank = np.where(np.isfinite(flank_tl), 10 ** (-flank_tl / 10), 0.0)
+    tau = np.stack([(1 - open_area[..., None] / s) * wall, leak_area / s, flank])
+    return tau / np.maximum(tau.sum(axis=0), 1.0)
+
+
+def _flanking(inp: StudyInputs, f_hz) -> np.ndarray:
+    """(P, Z, n) flanking TL at ``f_hz`` (inf where a zone has no flanking path)."""
+    from .zone_paths import distinct_items
+
+    f_hz = np.asarray(f_hz, dtype=float)
+    curves, index = distinct_items([[pkg.flanking.get(z.name, z.flanking_tl)
+                                     for z in inp.zones] for pkg in inp.packages], repr)
+    values = np.stack([np.full(f_hz.shape, np.inf) if c is None or not f_hz.size
+                       else c.at(f_hz) for c in curves])   # distinct curves: a handful
+    return values[index]
+
+
+def _source_energy(inp: StudyInputs, bands: Bands) -> np.ndarray:
+    """(S, C, B) interior sources' mean-square pressure in each condition."""
+    names = [c.name for c in inp.conditions]
+    out = np.zeros((len(inp.interior_sources), len(names), len(bands)))
+    for s, src in enumerate(inp.interior_sources):  # sources: a handful
+        applies = np.array([src.conditions is None or n in src.conditions for n in names])
+        out[s, :, bands.index(src.bands.nominal)] = (
+            applies[:, None] * 10 ** (np.asarray(src.levels_db) / 10)).T
     return out
 
 

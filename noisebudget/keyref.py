@@ -142,10 +142,15 @@ def markdown() -> str:
                  "Data for a designer, not a layer: no `type`.", out, seen)
     _section("Study files", STUDY_FILE, 2,
              "A study file holds the title block, the air, the cabin, the flight "
-             "conditions, the zones, the packages and the targets. A package's zone is "
-             "given by `layer = [...]` (layer entries as in a stack file) or by `stack = "
-             "\"file.toml\"` (a stack file's layers; its air states are ignored, since the "
-             "study's air governs).", out, seen)
+             "conditions, the zones, the interior sources, the packages and the targets. "
+             "A package's zone is given by `layer = [...]` (layer entries as in a stack "
+             "file) or by `stack = \"file.toml\"` (a stack file's layers; its air states "
+             "are ignored, since the study's air governs), with its leaks and flanking; a "
+             "zone a package gives replaces everything it took over with `based_on` for "
+             "that zone. A value given at frequencies (`exterior_offset_db` with "
+             "`offset_bands_hz`, `flanking_tl_db` with `flanking_bands_hz`) is linear in "
+             "lg f between them and constant outside; one value holds everywhere.", out,
+             seen)
     return "\n".join(out) + "\n"
 
 

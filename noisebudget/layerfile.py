@@ -31,6 +31,11 @@ LAYER_META: dict[str, Field] = {
                          "Biot) takes part: \"bonded\" (default) or \"unbonded\" (a thin "
                          "air film); on a `{ stack = ... }` entry it applies to the first "
                          "layer inserted"),
+    "structure": Field("boolean",
+                       doc="the layer belongs to the airframe, not the treatment: its mass "
+                           "counts in the stack but not in the treatment mass (default true "
+                           "for catalog skins, `use = \"skin.*\"`, else false); on a `{ stack "
+                           "= ... }` entry it applies to every layer inserted"),
 }
 
 

@@ -315,6 +315,25 @@ def _bands(value, spec: Field, file: str, path: str, width: str = "third"):
     return ref
 
 
+def _frequencies(value, spec: Field, file: str, path: str) -> tuple:
+    """A list of rising frequencies in Hz (plain numbers, 10 Hz to 20 kHz) at which the
+    values of another key are given (any frequencies, not bands)."""
+    if not isinstance(value, list) or not value:
+        raise InputError(file, path, f"expected a list of frequencies in Hz such as "
+                                     f"[125, 1000, 4000], got {show(value, typed=True)}")
+    out = []
+    for i, v in enumerate(value, start=1):
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v) \
+                or not 10.0 <= v <= 20000.0:
+            raise InputError(file, join(path, i), f"expected a frequency in Hz from 10 to "
+                                                  f"20000 (a plain number), got "
+                                                  f"{show(v, typed=True)}")
+        out.append(float(v))
+    if any(b <= a for a, b in zip(out, out[1:], strict=False)):
+        raise InputError(file, path, f"frequencies must rise, got {show(value)}")
+    return tuple(out)
+
+
 def _raw(value, spec: Field, file: str, path: str):
     """Any TOML value, kept as it is: its file module reads it later against another
     field (a trade study's values take the kind of the key they vary)."""
@@ -347,6 +366,8 @@ def read_value(value, spec: Field, path: str, reader: Reader, siblings: Values |
         if spec.kind == "bands":
             width = (siblings or {}).get("bandwidth", "third")
             return _bands(value, spec, reader.file, path, width)
+        if spec.kind == "frequencies":
+            return _frequencies(value, spec, reader.file, path)
         if spec.shape == "one" or (spec.shape == "one_or_list" and not isinstance(value, list)):
             return _leaf(value, spec, reader.file, path)
         if not isinstance(value, list):
@@ -442,9 +463,11 @@ def _check_relations(table, schema, where, reader, out: Values) -> None:
                 n = len(out[ref])
                 if len(out[key]) != n:
                     of = "" if ref == "bands_hz" else f" of {ref}"
-                    reader.problem(join(where, key), f"{len(out[key])} values for {n} bands"
-                                                     f"{of}: the bands do not match"
-                                   if schema[ref].kind == "bands" else
+                    what = {"bands": "bands", "frequencies": "frequencies"}.get(
+                        schema[ref].kind)
+                    reader.problem(join(where, key), f"{len(out[key])} values for {n} "
+                                                     f"{what}{of}: the {what} do not match"
+                                   if what else
                                    f"{len(out[key])} values for the {n} of {ref}")
                     out.bad.add(key)
                     del out[key]
@@ -536,6 +559,8 @@ def describe(spec: Field) -> str:
                "date": "date (2026-12-02) or text", "path": "file name (string), relative "
                "to this file", "bands": "list of consecutive nominal one-third-octave band "
                "frequencies in Hz (ISO 266, 10 Hz to 20 kHz), e.g. [100, 125, 160]",
+               "frequencies": "list of rising frequencies in Hz (plain numbers, 10 Hz to "
+               "20 kHz), e.g. [125, 1000, 4000]",
                "layers": "array of layer tables (see *Layer entries*)", "raw": "any value",
                "table": "table", "tables": "array of tables", "named": "tables keyed by name"
                }.get(kind, kind)

@@ -29,8 +29,12 @@ from .media import Air, standard_atmosphere
 from .schema import INVALID, Reader, join, read_table, read_toml
 from .stack import Stack
 
-__all__ = ["AIR_STATE", "INCLUDE_ENTRY", "STACK_FILE", "air_from", "bonding_of", "include_stack",
-           "load_stack", "parse_stack", "read_layers", "read_toml"]
+__all__ = ["AIR_STATE", "INCLUDE_ENTRY", "STACK_FILE", "STRUCTURE_GROUPS", "air_from",
+           "bonding_of", "include_stack", "load_stack", "parse_stack", "read_layers",
+           "read_toml", "structure_of"]
+
+#: catalog groups whose entries are airframe structure unless an entry says otherwise
+STRUCTURE_GROUPS = ("skin",)
 
 AIR_STATE: dict[str, Field] = {
     "temperature": Field("temperature", ge=150.0, le=400.0,
@@ -161,6 +165,8 @@ def _layer_entry(entry: dict, where: str, reader: Reader):
         return INVALID
     layer, values = built
     meta = {k: v for k, v in values.items() if k in LAYER_META}
+    if label and "structure" not in meta and label.split(".")[0] in STRUCTURE_GROUPS:
+        meta["structure"] = True
     return [LayerEntry(layer, meta.get("name") or label or layer.type_name, meta)]
 
 
@@ -206,6 +212,12 @@ def stack_from(values, entries, default_air: Air | None = None) -> Stack:
 def bonding_of(entries) -> tuple:
     """Each layer entry's contact with the previous layer (default ``"bonded"``)."""
     return tuple(e.meta.get("bonding") or "bonded" for e in entries)
+
+
+def structure_of(entries) -> tuple:
+    """Whether each layer entry is airframe structure (its ``structure`` key, else true
+    for entries of the catalog's :data:`STRUCTURE_GROUPS`)."""
+    return tuple(bool(e.meta.get("structure", False)) for e in entries)
 
 
 def parse_stack(data: dict, file: str = "", where: str = "", catalog=None) -> Stack:

@@ -1,4 +1,5 @@
-"""Study files (TOML): title block, air, cabin, conditions, zones, packages, targets.
+"""Study files (TOML): title block, air, cabin, conditions, zones, interior sources,
+packages (stacks, leaks, flanking), targets.
 
 The keys are declared section by section below (dicts of
 :class:`~noisebudget.layers.base.Field`, read by :mod:`noisebudget.schema`), so that a
@@ -11,6 +12,7 @@ raises :class:`~noisebudget.errors.InputErrors` when there is any, and what it a
 from __future__ import annotations
 
 import hashlib
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -19,13 +21,17 @@ from .catalog import load_catalog
 from .layers.base import Field
 from .media import Air
 from .schema import INVALID, Reader, join, read_table, read_toml, suggest
-from .stackfile import AIR_STATE, air_from, bonding_of, include_stack, read_layers
+from .stackfile import AIR_STATE, air_from, bonding_of, include_stack, read_layers, structure_of
 
-__all__ = ["AIR_SECTION", "CABIN", "CONDITION", "LoadedStudy", "PACKAGE", "PACKAGE_ZONE",
-           "STUDY_FILE", "STUDY_SECTION", "TARGETS", "TARGET_METRICS", "TONE", "ZONE",
-           "load_study", "parse_study", "run_study"]
+__all__ = ["AIR_SECTION", "CABIN", "CONDITION", "HOLE", "INTERIOR_SOURCE", "LoadedStudy",
+           "PACKAGE", "PACKAGE_ZONE", "SLIT", "STUDY_FILE", "STUDY_SECTION", "TARGETS",
+           "TARGET_METRICS", "TONE", "ZONE", "load_study", "parse_study", "run_study"]
 
 LEVEL = {"positive": False, "ge": -50.0, "le": 200.0}  # a band or tone level, dB
+BANDWIDTH = Field("choice", choices=("third", "octave"), default="third",
+                  doc="bandwidth of bands_hz and the values on them: \"octave\" levels are "
+                      "split into three one-third octaves of equal energy (-4.77 dB each), "
+                      "other values copied to them")
 
 # ------------------------------------------------------------------ [study]
 STUDY_SECTION: dict[str, Field] = {
@@ -59,6 +65,7 @@ AIR_SECTION: dict[str, Field] = {
 # ------------------------------------------------------------------ [cabin]
 CABIN: dict[str, Field] = {
     "volume": Field("volume", required=True, doc="cabin volume (Sabine's formula)"),
+    "bandwidth": BANDWIDTH,
     "bands_hz": Field("bands", required=True, doc="bands of the absorption values"),
     "absorption_area": Field("area", shape="list", length="bands_hz", group="absorption",
                              required=True, doc="absorption area per band"),
@@ -80,6 +87,7 @@ TONE: dict[str, Field] = {
 }
 CONDITION: dict[str, Field] = {
     "name": Field("name", required=True, doc="name of the flight condition"),
+    "bandwidth": BANDWIDTH,
     "bands_hz": Field("bands", required=True, doc="bands of the exterior levels"),
     "levels_db": Field("db", shape="list", length="bands_hz", required=True, **LEVEL,
                        doc="exterior band levels"),
@@ -88,19 +96,82 @@ CONDITION: dict[str, Field] = {
 }
 
 # ------------------------------------------------------------------ [[zone]]
+FLANKING: dict[str, Field] = {
+    "flanking_tl_db": Field("db", allow_zero=True, le=200.0, shape="one_or_list",
+                            length="flanking_bands_hz",
+                            doc="TL of the path around the packages (frames, reveals), in "
+                                "parallel with them: one value, or one per frequency of "
+                                "flanking_bands_hz"),
+    "flanking_bands_hz": Field("frequencies", needs=("flanking_tl_db",),
+                               doc="frequencies of a list of flanking_tl_db (linear in lg f "
+                                   "between them, constant outside)"),
+}
 ZONE: dict[str, Field] = {
     "name": Field("name", required=True, doc="name of the zone (packages refer to it)"),
     "area": Field("area", required=True, doc="wall area of the zone"),
+    "exterior_offset_db": Field("db", positive=False, ge=-100.0, le=100.0,
+                                shape="one_or_list", length="offset_bands_hz",
+                                doc="added to the condition's levels and tones on this zone: "
+                                    "one value, or one per frequency of offset_bands_hz"),
+    "offset_bands_hz": Field("frequencies", needs=("exterior_offset_db",),
+                             doc="frequencies of a list of exterior_offset_db (linear in lg f "
+                                 "between them, constant outside; a tone takes the offset at "
+                                 "its frequency)"),
+    **FLANKING,
+    "notes": Field("text", doc="free text"),
+}
+
+# ------------------------------------------------------------------ [[interior_source]]
+INTERIOR_SOURCE: dict[str, Field] = {
+    "name": Field("name", required=True, doc="name of the source (not a zone's name)"),
+    "bandwidth": BANDWIDTH,
+    "bands_hz": Field("bands", required=True,
+                      doc="bands of the levels (inside every condition it sounds in)"),
+    "levels_db": Field("db", shape="list", length="bands_hz", required=True, **LEVEL,
+                       doc="interior band levels in the cabin (air conditioning, "
+                           "structure-borne noise)"),
+    "conditions": Field("name", shape="list",
+                        doc="the conditions it sounds in (default: every condition)"),
     "notes": Field("text", doc="free text"),
 }
 
 # ------------------------------------------------------------------ [[package]]
+_LEAK_COMMON: dict[str, Field] = {
+    "name": Field("name", doc="label of the leak"),
+    "behind_layer": Field("integer", allow_zero=True, default=0,
+                          doc="the leak opens behind the stack's first k layers (they "
+                              "transmit to it, it bypasses the rest); 0: through the whole "
+                              "wall"),
+}
+SLIT: dict[str, Field] = {
+    "width": Field("length", required=True, doc="narrow dimension of the slit"),
+    "length": Field("length", required=True, doc="long dimension of the slit"),
+    "depth": Field("length", required=True, allow_zero=True,
+                   doc="wall thickness the slit runs through"),
+    **_LEAK_COMMON,
+}
+HOLE: dict[str, Field] = {
+    "diameter": Field("length", required=True, doc="hole diameter"),
+    "depth": Field("length", required=True, allow_zero=True,
+                   doc="wall thickness the hole runs through"),
+    "count": Field("integer", ge=1, default=1, doc="number of holes, far apart"),
+    **_LEAK_COMMON,
+}
 PACKAGE_ZONE: dict[str, Field] = {
     "layer": Field("layers", group="stack", required=True, read=read_layers,
                    doc="the zone's layers, exterior first (stack-file layer entries)"),
     "stack": Field("path", group="stack", required=True,
                    doc="a stack file holding the zone's layers (its air states are "
                        "ignored: the study's air governs)"),
+    "leak": Field("tables", tag="shape", variants={"slit": SLIT, "hole": HOLE},
+                  doc="an aperture in the zone's package (slit after Gomperts & Kihlman "
+                      "1967, holes after Wilson & Soroka 1965); their open area must be "
+                      "smaller than the zone's"),
+    "flanking_tl_db": replace(FLANKING["flanking_tl_db"],
+                              doc="this package's flanking TL on the zone, replacing the "
+                                  "zone's: one value, or one per frequency of "
+                                  "flanking_bands_hz"),
+    "flanking_bands_hz": FLANKING["flanking_bands_hz"],
     "notes": Field("text", doc="free text"),
 }
 PACKAGE: dict[str, Field] = {
@@ -132,8 +203,10 @@ STUDY_FILE: dict[str, Field] = {
                        doc="flight conditions: exterior levels and tones"),
     "zone": Field("tables", schema=ZONE, required=True, unique="name",
                   doc="parts of the cabin wall"),
+    "interior_source": Field("tables", schema=INTERIOR_SOURCE, unique="name",
+                             doc="sounds already in the cabin, added as energy"),
     "package": Field("tables", schema=PACKAGE, required=True, unique="name",
-                     doc="treatment packages: a stack per zone"),
+                     doc="treatment packages: a stack per zone, leaks, flanking"),
     "targets": Field("table", schema=TARGETS, doc="targets for every condition"),
 }
 
@@ -157,19 +230,43 @@ def _valid(entries):
     return [(i, v) for i, v in enumerate(entries, start=1) if v is not INVALID]
 
 
+def _thirds(v):
+    """The one-third-octave bands of a table's ``bands_hz`` (octave bands split where its
+    ``bandwidth`` says so), or None."""
+    if "bands_hz" not in v:
+        return None
+    if v.get("bandwidth") == "octave":
+        from .bands import octave_to_thirds
+
+        return octave_to_thirds(v["bands_hz"], np.zeros(len(v["bands_hz"])))[0]
+    return v["bands_hz"]
+
+
+def _on_thirds(v, values, kind):
+    """``(bands, values)`` on one-third octaves of a table's banded values: octave levels
+    split into thirds of equal energy (``kind="level"``) or copied (``"copy"``)."""
+    values = np.asarray(values, dtype=float)
+    if v.get("bandwidth") == "octave":
+        from .bands import octave_to_thirds
+
+        return octave_to_thirds(v["bands_hz"], values, kind)
+    return v["bands_hz"], values
+
+
 def _cabin(v):
     if not v or "bands_hz" not in v or "volume" not in v:
         return None, None
-    bands = v["bands_hz"]
+    thirds = _thirds(v)
     if "absorption_area" in v:
-        return np.array(v["absorption_area"]), bands
+        return _on_thirds(v, v["absorption_area"], "copy")[1], thirds
     if "reverberation_time" in v:
         from .budget import sabine_area
 
-        return sabine_area(v["volume"], np.array(v["reverberation_time"])), bands
+        return sabine_area(v["volume"], _on_thirds(v, v["reverberation_time"], "copy")[1]), \
+            thirds
     if "mean_absorption" in v and "surface_area" in v:
-        return np.full(len(bands), v["mean_absorption"] * v["surface_area"]), bands
-    return None, bands
+        return np.full(len(thirds), v["mean_absorption"] * v["surface_area"]), thirds
+    return None, thirds
 
 
 def _conditions(entries, reader):
@@ -181,7 +278,7 @@ def _conditions(entries, reader):
         if "bands_hz" not in v:
             continue
         bands = v["bands_hz"]
-        tones_f, tones_l, tones_n, ok = [], [], [], True
+        tones_f, tones_l, names, ok = [], [], [], True
         for j, t in _valid(v.get("tone", [])):
             if "frequency" not in t or "level_db" not in t:
                 ok = False
@@ -194,18 +291,87 @@ def _conditions(entries, reader):
                 continue
             tones_f.append(t["frequency"])
             tones_l.append(t["level_db"])
-            tones_n.append(t.get("name") or f"{t['frequency']:g} Hz")
+            names.append(t.get("name", f"{t['frequency']:g} Hz"))
         if ok and "levels_db" in v and "name" in v and not v.bad:
-            out.append(Condition(v["name"], bands, np.array(v["levels_db"]),
-                                 np.array(tones_f), np.array(tones_l), tuple(tones_n)))
+            thirds, levels = _on_thirds(v, v["levels_db"], "level")
+            out.append(Condition(v["name"], thirds, levels, np.array(tones_f),
+                                 np.array(tones_l), tuple(names), v["bandwidth"]))
     return out
 
 
-def _zones(entries):
-    from .budget import Zone
+def _curve(v, key, points_key, where, reader):
+    """A dB value given as one number, or as a list at the frequencies of ``points_key``:
+    a :class:`~noisebudget.budget.Curve`; None when absent; INVALID when refused (its
+    problem recorded here or by the schema)."""
+    from .budget import Curve
 
-    return [Zone(v["name"], v["area"]) for _, v in _valid(entries)
-            if "name" in v and "area" in v]
+    if key not in v:
+        return INVALID if v.given(key) or v.given(points_key) else None
+    values = v[key]
+    if isinstance(values, tuple):
+        if points_key not in v:
+            if not v.given(points_key):
+                reader.problem(join(where, points_key),
+                               f"missing: a list of {key} needs its frequencies in Hz")
+            return INVALID
+        return Curve(v[points_key], values)
+    if v.given(points_key):
+        reader.problem(join(where, points_key), f"a single {key} takes no frequencies: give "
+                                                f"one value per frequency, or drop "
+                                                f"{points_key}")
+        return INVALID
+    return Curve((), (values,))
+
+
+def _zones(entries, reader):
+    from .budget import Curve, Zone
+
+    out = []
+    for i, v in _valid(entries):
+        where = f"zone[{i}]"
+        offset = _curve(v, "exterior_offset_db", "offset_bands_hz", where, reader)
+        flanking = _curve(v, "flanking_tl_db", "flanking_bands_hz", where, reader)
+        if "name" in v and "area" in v and offset is not INVALID and flanking is not INVALID:
+            out.append(Zone(v["name"], v["area"], offset or Curve(), flanking))
+    return out
+
+
+def _interior_sources(entries, conditions, reader, zone_names, condition_names):
+    """``[[interior_source]]`` entries: names apart from the zones', conditions that
+    exist, bands inside every condition the source sounds in."""
+    from .budget import InteriorSource
+
+    out = []
+    for i, v in _valid(entries):
+        where = f"interior_source[{i}]"
+        ok = not v.bad
+        if v.get("name") in zone_names:
+            reader.problem(join(where, "name"), f"{v['name']!r} is the name of a zone: the "
+                                                "contributions table names sources and "
+                                                "zones alike")
+            ok = False
+        applies = v.get("conditions")
+        for j, c in enumerate(applies or (), start=1):
+            if c not in condition_names:
+                reader.problem(join(join(where, "conditions"), j),
+                               f"no condition {c!r}{suggest(c, condition_names)}")
+                ok = False
+        thirds = _thirds(v)
+        if thirds is not None:
+            for c in conditions:
+                if (applies is None or c.name in applies) and not set(
+                        thirds.nominal) <= set(c.bands.nominal):
+                    reader.problem(join(where, "bands_hz"),
+                                   f"bands do not fit: {thirds.nominal[0]:g} .. "
+                                   f"{thirds.nominal[-1]:g} Hz reaches outside condition "
+                                   f"{c.name!r} ({c.bands.nominal[0]:g} .. "
+                                   f"{c.bands.nominal[-1]:g} Hz)")
+                    ok = False
+                    break
+        if ok and "name" in v and "levels_db" in v and thirds is not None:
+            _, levels = _on_thirds(v, v["levels_db"], "level")
+            out.append(InteriorSource(v["name"], thirds, levels, applies, v["bandwidth"]))
+    return out
 
 
 def _raw_names(data, section):
@@ -217,20 +383,65 @@ def _raw_names(data, section):
     return [t["name"] for t in tables if isinstance(t, dict) and isinstance(t.get("name"), str)]
 
 
+def _leaks(zv, n_layers, area, where, reader):
+    """The leaks of one package zone as :class:`~noisebudget.budget.Leak`, checked against
+    the zone's stack (``behind_layer``) and area (their open area); INVALID when refused."""
+    from .apertures import Hole, Slit
+    from .budget import Leak
+
+    entries = zv.get("leak", [])
+    if zv.given("leak") and "leak" not in zv:
+        return INVALID
+    out, ok = [], True
+    for i, t in enumerate(entries, start=1):
+        if t is INVALID or t.bad:
+            ok = False
+            continue
+        lw = join(join(where, "leak"), i)
+        if n_layers is not None and t["behind_layer"] >= n_layers:
+            reader.problem(join(lw, "behind_layer"),
+                           f"the stack has {n_layers} layer{'s' * (n_layers != 1)}: a leak "
+                           f"behind layer {t['behind_layer']} opens nowhere (at most "
+                           f"{n_layers - 1})")
+            ok = False
+            continue
+        sizes = SLIT if t["shape"] == "slit" else HOLE
+        if any(spec.required and k not in t for k, spec in sizes.items()):
+            ok = False   # a required size missing (reported)
+            continue
+        aperture = Slit(t["width"], t["length"], t["depth"]) if t["shape"] == "slit" \
+            else Hole(t["diameter"], t["depth"], t["count"])
+        out.append(Leak(aperture, t["behind_layer"], t.get("name", "")))
+    open_area = sum(lk.area for lk in out)
+    if area is not None and open_area >= area:
+        reader.problem(join(where, "leak"), f"the leaks' open area ({open_area:.4g} m^2) must "
+                                            f"be smaller than the zone's area ({area:.4g} m^2)")
+        ok = False
+    return tuple(out) if ok else INVALID
+
+
+_ZONE_ITEMS = ("stacks", "structure", "leaks", "flanking", "installation")
+
+
 def _packages(entries, zone_names, zones, airs, reader, package_names):
+    """Packages with, per zone, stack, structure flags, leaks, flanking override and
+    installation mass; ``based_on`` copies all of these, and a zone the package gives
+    itself replaces everything it inherited for that zone."""
     from .budget import Package
     from .stack import Stack
 
+    areas = {z.name: z.area for z in zones}
     out = []
-    done: dict[str, tuple] = {}   # name -> (stacks, zones whose stack failed)
+    done: dict[str, tuple] = {}   # name -> (per-zone items, zones whose stack failed)
     for i, v in _valid(entries):
         where = f"package[{i}]"
-        stacks: dict = {}
+        items: dict = {k: {} for k in _ZONE_ITEMS}
         failed: set = set()
         if "based_on" in v:
             base = v["based_on"]
             if base in done:
-                stacks.update(done[base][0])
+                for k in _ZONE_ITEMS:
+                    items[k].update(done[base][0][k])
                 failed |= done[base][1]
             else:
                 later = base in package_names
@@ -249,29 +460,44 @@ def _packages(entries, zone_names, zones, airs, reader, package_names):
                 reader.problem(zw, f"no such zone{suggest(zname, zone_names)} "
                                    f"(zones: {', '.join(zone_names)})")
                 continue
-            stacks.pop(zname, None)
+            for k in _ZONE_ITEMS:   # the zone given here replaces what was inherited
+                items[k].pop(zname, None)
+            if zv is INVALID:
+                failed.add(zname)
+                continue
             entries_z = INVALID
-            if zv is not INVALID and "layer" in zv:
+            if "layer" in zv:
                 entries_z = zv["layer"]
-            elif zv is not INVALID and "stack" in zv:
+            elif "stack" in zv:
                 entries_z = include_stack(zv["stack"], join(zw, "stack"), reader,
                                           host="study's zone")
-            if entries_z is INVALID:
+            n_layers = None if entries_z is INVALID else len(entries_z)
+            leaks = _leaks(zv, n_layers, areas.get(zname), zw, reader)
+            flanking = _curve(zv, "flanking_tl_db", "flanking_bands_hz", zw, reader)
+            if entries_z is INVALID or leaks is INVALID or flanking is INVALID:
                 failed.add(zname)
                 continue
             failed.discard(zname)
-            stacks[zname] = Stack(tuple(e.layer for e in entries_z), airs[0], airs[1],
-                                  airs[1], tuple(e.label for e in entries_z),
-                                  bonding_of(entries_z))
+            items["stacks"][zname] = Stack(tuple(e.layer for e in entries_z), airs[0],
+                                           airs[1], airs[1],
+                                           tuple(e.label for e in entries_z),
+                                           bonding_of(entries_z))
+            items["structure"][zname] = structure_of(entries_z)
+            items["leaks"][zname] = leaks
+            if flanking is not None:
+                items["flanking"][zname] = flanking
+            if "installation_mass" in v:
+                items["installation"][zname] = v["installation_mass"]
         for z in zone_names:
-            if z not in stacks and z not in failed:
+            if z not in items["stacks"] and z not in failed:
                 reader.problem(join(join(where, "zone"), z),
                                "missing: every package needs a stack for every zone")
         if "name" in v:
-            done[v["name"]] = (stacks, failed)
-            if "installation_mass" in v and set(stacks) >= {z.name for z in zones}:
-                out.append(Package(v["name"], stacks, v["installation_mass"],
-                                   v.get("notes", "")))
+            done[v["name"]] = (items, failed)
+            if "installation_mass" in v and set(items["stacks"]) >= {z.name for z in zones}:
+                out.append(Package(v["name"], items["stacks"], v["installation_mass"],
+                                   v.get("notes", ""), items["leaks"], items["flanking"],
+                                   items["structure"], items["installation"]))
     return out
 
 
@@ -279,6 +505,19 @@ def _targets(v):
     out = {k: v[k] for k in ("dba", "sil4") if k in v}
     if "limit_bands_hz" in v and "limit_db" in v:
         out["limit"] = (list(v["limit_bands_hz"].nominal), list(v["limit_db"]))
+    return out
+
+
+def _conversions(cabin, conditions, sources) -> list[str]:
+    """Plain sentences stating every octave-to-third conversion made, for the report."""
+    split = "octave-band levels split into three one-third-octave bands of equal energy " \
+            "(-4.77 dB each)"
+    out = [f"condition {c.name!r}: {split}" for c in conditions
+           if c.input_bandwidth == "octave"]
+    out += [f"interior source {s.name!r}: {split}" for s in sources
+            if s.input_bandwidth == "octave"]
+    if (cabin or {}).get("bandwidth") == "octave":
+        out.append("cabin: octave-band values copied to their three one-third-octave bands")
     return out
 
 
@@ -319,8 +558,10 @@ def parse_study(data: dict, file: str = "", base_dir=None) -> LoadedStudy:
     cab = air_from(air.get("cabin"), Air(295.15, 101325.0))
     cabin_a, cabin_bands = _cabin(v.get("cabin"))
     conditions = _conditions(v.get("condition"), reader)
-    zones = _zones(v.get("zone"))
+    zones = _zones(v.get("zone"), reader)
     zone_names = list(dict.fromkeys(_raw_names(data, "zone")))
+    sources = _interior_sources(v.get("interior_source"), conditions, reader, zone_names,
+                                _raw_names(data, "condition"))
     package_names = _raw_names(data, "package")
     packages = _packages(v.get("package"), zone_names, zones, (ext, cab), reader,
                          package_names)
@@ -330,9 +571,9 @@ def parse_study(data: dict, file: str = "", base_dir=None) -> LoadedStudy:
         reader.problem("study.baseline", f"no package {baseline!r}"
                                          f"{suggest(baseline, package_names)}")
     if cabin_bands is not None:
-        for i, c in enumerate(v.get("condition") or [], start=1):
-            if c is not INVALID and "bands_hz" in c and not set(
-                    c["bands_hz"].nominal) <= set(cabin_bands.nominal):
+        for i, c in _valid(v.get("condition")):
+            thirds = _thirds(c)
+            if thirds is not None and not set(thirds.nominal) <= set(cabin_bands.nominal):
                 reader.problem(f"condition[{i}].bands_hz", "bands do not match: the cabin "
                                                            "absorption must cover every band "
                                                            "of every condition")
@@ -350,11 +591,12 @@ def parse_study(data: dict, file: str = "", base_dir=None) -> LoadedStudy:
                                                            "reverberation_time",
                                                            "mean_absorption") if k in cabin),
                                               "")}
+    meta["conversions"] = _conversions(v.get("cabin"), conditions, sources)
     title = meta["title"] or (Path(file).stem if file else "study")
     inputs = StudyInputs(title, tuple(conditions), tuple(zones), tuple(packages), baseline,
                          cabin_a, cabin_bands, st["exterior_level"], st["incidence"],
                          st.get("theta_max_deg"), st["include_package_absorption"],
-                         _targets(v.get("targets", {})), meta)
+                         _targets(v.get("targets", {})), meta, tuple(sources))
     return LoadedStudy(inputs, dict(files))
 
 

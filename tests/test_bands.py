@@ -132,3 +132,29 @@ def test_band_average_samples_at_least_8_points_per_third_octave():
             thirds = np.geomspace(lo, hi, int(round(3 / b.b)) + 1)
             for a, c in zip(thirds[:-1], thirds[1:], strict=True):
                 assert np.count_nonzero((f > a) & (f < c)) >= 8
+
+
+def test_octave_split_into_thirds_keeps_the_energy():
+    # equal-energy split: each third L - 10 lg 3 = L - 4.77 dB (common practice); rolled
+    # back up (energy sum of three thirds), the octave level returns exactly
+    from noisebudget.bands import octave_bands, octave_to_thirds
+
+    octs = octave_bands(63, 4000)
+    levels = np.array([80.0, 75.0, 70.0, 66.0, 61.0, 58.0, 50.0])
+    thirds, split = octave_to_thirds(octs, levels)
+    np.testing.assert_allclose(thirds.nominal[:3], [50, 63, 80])
+    np.testing.assert_allclose(thirds.nominal[-3:], [3150, 4000, 5000])
+    np.testing.assert_allclose(split[:3], 80 - 10 * np.log10(3))
+    back_bands, back = third_to_octave(thirds, split)
+    np.testing.assert_allclose(back_bands.nominal, octs.nominal)
+    np.testing.assert_allclose(back, levels, atol=1e-12)
+    _, times = octave_to_thirds(octs, np.arange(7.0), "copy")   # times are copied
+    np.testing.assert_allclose(times, np.repeat(np.arange(7.0), 3))
+
+
+def test_log_interp_is_linear_in_log_frequency_and_flat_outside():
+    from noisebudget.bands import log_interp
+
+    got = log_interp([50, 100, np.sqrt(100 * 400), 400, 1000], [100, 400], [2.0, 6.0])
+    np.testing.assert_allclose(got, [2, 2, 4, 6, 6])    # geometric mean: half way
+    np.testing.assert_allclose(log_interp([10, 1e4], [], [3.0]), [3, 3])

@@ -152,6 +152,7 @@ def test_check_counts_in_words(tmp_path, capsys):
     assert main(["check", str(write(tmp_path, demo, "demo.toml"))]) == 0
     assert "4 packages, 3 zones, 2 conditions" in capsys.readouterr().out
     one = demo[:demo.index('[[condition]]\nname = "climb"')] + demo[demo.index("[[zone]]"):]
+    one = one.replace('conditions = ["climb"]', 'conditions = ["cruise"]')  # one condition
     assert main(["check", str(write(tmp_path, one, "one.toml"))]) == 0
     assert "2 conditions" not in (out := capsys.readouterr().out) and "1 condition" in out
 

@@ -35,14 +35,19 @@ KEYS = ["layer", "type", "use", "stack", "thickness", "name", "cell", "tension",
         "package", "bands_hz", "levels_db", "area", "volume", "tone", "frequency",
         "level_db", "based_on", "baseline", "theta_max_deg", "installation_mass",
         "reverberation_time", "targets", "dba", "air", "exterior", "altitude", "porosity",
-        "loss_factor", "share", "frame", "pitch", "radius", "mass", "mass_radius", "junk"]
+        "loss_factor", "share", "frame", "pitch", "radius", "mass", "mass_radius",
+        "exterior_offset_db", "offset_bands_hz", "flanking_tl_db", "flanking_bands_hz", "leak",
+        "shape", "width", "length", "diameter", "depth", "count", "behind_layer",
+        "interior_source", "conditions", "bandwidth", "structure", "bonding", "junk"]
 PLAUSIBLE = ["25 mm", "0 mm", "-1 mm", "1 kg/m^2", "2780 kg/m^3", "73 GPa", "20 degC",
              "80 N/m", "20 m^2", "0.5 s", "102 Hz", "1 g", "20000 Pa*s/m^2", "nan mm",
              "1e400 m", "plate", "air", "septum", "porous", "tile", "jca", "delany-bazley",
              "field", "diffuse", "floating", "clamped", "skin.al2024-t3-1.6mm",
-             "tile.bpf-102-floating", "part.toml", "wall", "window", "bare", "cruise", "",
+             "tile.bpf-105-floating", "part.toml", "wall", "window", "bare", "cruise", "",
              "$x^2$", "a\x07b", [100, 125, 160, 200, 250], [100, 101, 102, 101, 100],
-             ["0.5 s"] * 5, 0, 1, 0.3, 0.98, 78, 90, 91, -5, 1e6, True, False]
+             ["0.5 s"] * 5, 0, 1, 0.3, 0.98, 78, 90, 91, -5, 1e6, True, False,
+             "slit", "hole", "octave", "third", "1 mm", "3000 m", 2, [63, 125, 1000],
+             [125], [1000, 100], ["cruise"], ["taxi"]]
 
 scalars = st.one_of(
     st.booleans(), st.integers(-10**6, 10**6), st.floats(allow_nan=True, allow_infinity=True),

@@ -73,7 +73,7 @@ def test_problems_of_an_inserted_file_name_that_file(tmp_path, capsys):
         f"{host}: layer[3].stack: nope.toml: file not found",
         f"{host}: layer[4].stack: expected a file name (a string), got integer 3",
         f"{host}: layer[5].thickness: unknown key (allowed: stack, name, notes, "
-        "description, source, bonding)",
+        "description, source, bonding, structure)",
     ]
 
 

@@ -45,7 +45,7 @@ youngs_modulus = "20 GPa"
 poisson_ratio = 0.3
 loss_factor = 0.02
 [[layer]]
-use = "tile.bpf-102-floating"
+use = "tile.bpf-105-floating"
 '''
 
 BANDS = "[100, 125, 160, 200, 250]"
@@ -81,9 +81,20 @@ levels_db = [103, 104, 104, 103, 102]
 [[zone]]
 name = "wall"
 area = "20 m^2"
+exterior_offset_db = [2, 4, 1]
+offset_bands_hz = [63, 125, 1000]
+flanking_tl_db = 45
 [[zone]]
 name = "window"
 area = "2 m^2"
+flanking_tl_db = [30, 40]
+flanking_bands_hz = [100, 250]
+[[interior_source]]
+name = "air conditioning"
+bandwidth = "octave"
+bands_hz = [125]
+levels_db = [60]
+conditions = ["cruise"]
 [targets]
 dba = 80
 sil4 = 60
@@ -92,13 +103,27 @@ name = "bare"
 installation_mass = "0.2 kg/m^2"
 [package.zone.wall]
 stack = "part.toml"
+[[package.zone.wall.leak]]
+name = "joint"
+shape = "slit"
+width = "1 mm"
+length = "2 m"
+depth = "5 mm"
+behind_layer = 1
 [package.zone.window]
 layer = [{{ type = "plate", thickness = "8 mm", density = "1190 kg/m^3", youngs_modulus = "3 GPa"}}]
 [[package]]
 name = "septum"
 based_on = "bare"
 [package.zone.wall]
-layer = [{{ stack = "part.toml" }}, {{ use = "septum.elastomer-1.5" }}]
+layer = [{{ stack = "part.toml", structure = true }}, {{ use = "septum.elastomer-1.5" }}]
+flanking_tl_db = 50
+[[package.zone.wall.leak]]
+shape = "hole"
+diameter = "3 mm"
+depth = "2 mm"
+count = 4
+behind_layer = 2
 '''
 
 PART = '[[layer]]\ntype = "plate"\nthickness = "1.6 mm"\ndensity = "2780 kg/m^3"\n' \
@@ -146,10 +171,10 @@ REFUSED = [
          "expected a layer table, got integer 1"),
     Case("no-layers", S, None, 'title = "nothing"\n', "layer",
          "missing: need at least one [[layer]]"),
-    Case("cell-string", S, 'use = "tile.bpf-102-floating"',
+    Case("cell-string", S, 'use = "tile.bpf-105-floating"',
          'type = "tile"\npitch = "22 mm"\nframe = "clamped"\ncell = "round"', "layer[5].cell",
          "expected an array of tables ([[cell]]), got string"),
-    Case("cell-number", S, 'use = "tile.bpf-102-floating"',
+    Case("cell-number", S, 'use = "tile.bpf-105-floating"',
          'type = "tile"\npitch = "22 mm"\nframe = "clamped"\ncell = [1]', "layer[5].cell[1]",
          "expected a table, got integer 1"),
     Case("air-string", S, '[source_air]\ntemperature = "-40 degC"\npressure = "30 kPa"\n',
@@ -304,25 +329,111 @@ REFUSED = [
          "layer[1].use", "'membrane.latex' is a membrane material, not a layer"),
     Case("use-contradicts-type", S, 'use = "skin.al2024-t3-1.6mm"',
          'use = "skin.al2024-t3-1.6mm"\ntype = "septum"', "layer[1].type", "contradicts"),
-    Case("tile-tension-twice", S, 'use = "tile.bpf-102-floating"',
+    Case("tile-tension-twice", S, 'use = "tile.bpf-105-floating"',
          'type = "tile"\npitch = "22 mm"\nframe = "clamped"\n[[layer.cell]]\nradius = "10 mm"\n'
          'membrane_thickness = "0.2 mm"\nmembrane_density = "1000 kg/m^3"\ntension = "80 N/m"\n'
          'prestress = "1 MPa"', "layer[5].cell[1].prestress", "give tension or prestress, "
          "not both"),
-    Case("tile-shares", S, 'use = "tile.bpf-102-floating"',
+    Case("tile-shares", S, 'use = "tile.bpf-105-floating"',
          'type = "tile"\npitch = "22 mm"\nframe = "clamped"\n[[layer.cell]]\nradius = "10 mm"\n'
          'membrane_thickness = "0.2 mm"\nmembrane_density = "1000 kg/m^3"\ntension = "80 N/m"\n'
          "share = 0.5", "layer[5].cell", "shares must sum to 1"),
-    Case("tile-disk-too-big", S, 'use = "tile.bpf-102-floating"',
-         'use = "tile.bpf-102-floating"\ncell = [{ radius = "5 mm", membrane_thickness = '
+    Case("tile-disk-too-big", S, 'use = "tile.bpf-105-floating"',
+         'use = "tile.bpf-105-floating"\ncell = [{ radius = "5 mm", membrane_thickness = '
          '"0.2 mm", membrane_density = "1000 kg/m^3", tension = "80 N/m", mass = "1 g", '
          'mass_radius = "6 mm" }]', "layer[5].cell[1].mass_radius", "must be smaller"),
     Case("include-missing", T, 'stack = "part.toml"', 'stack = "nope.toml"',
          "package[1].zone.wall.stack", "nope.toml: file not found"),
-    Case("include-cycle", S, 'use = "tile.bpf-102-floating"', 'stack = "loop.toml"',
+    Case("include-cycle", S, 'use = "tile.bpf-105-floating"', 'stack = "loop.toml"',
          "layer[2].stack", "include cycle: loop.toml -> loop.toml", "loop.toml"),
     Case("stack-given-to-check", T, None, STACK, "layer", "unknown key"),
     Case("study-given-to-tl", S, None, STUDY, "study", "unknown key"),
+    # paths into the cabin: zone offsets and flanking (one value, or values at rising
+    # frequencies), leaks, interior sources, octave input, structure flags
+    Case("offset-count", T, "exterior_offset_db = [2, 4, 1]", "exterior_offset_db = [2, 4]",
+         "zone[1].exterior_offset_db", "2 values for 3 frequencies of offset_bands_hz"),
+    Case("offset-list-alone", T, "offset_bands_hz = [63, 125, 1000]\n", "",
+         "zone[1].offset_bands_hz", "missing: a list of exterior_offset_db needs its "
+         "frequencies in Hz"),
+    Case("offset-one-with-frequencies", T, "exterior_offset_db = [2, 4, 1]",
+         "exterior_offset_db = 2", "zone[1].offset_bands_hz", "takes no frequencies"),
+    Case("offset-frequencies-falling", T, "offset_bands_hz = [63, 125, 1000]",
+         "offset_bands_hz = [125, 63, 1000]", "zone[1].offset_bands_hz",
+         "frequencies must rise"),
+    Case("offset-frequency-with-unit", T, "offset_bands_hz = [63, 125, 1000]",
+         'offset_bands_hz = ["63 Hz", 125, 1000]', "zone[1].offset_bands_hz[1]",
+         "expected a frequency in Hz from 10 to 20000 (a plain number), got string"),
+    Case("offset-frequency-beyond", T, "offset_bands_hz = [63, 125, 1000]",
+         "offset_bands_hz = [63, 125, 40000]", "zone[1].offset_bands_hz[3]",
+         "from 10 to 20000"),
+    Case("offset-huge", T, "exterior_offset_db = [2, 4, 1]", "exterior_offset_db = [2, 4, 1e6]",
+         "zone[1].exterior_offset_db[3]", "must lie in [-100 dB, 100 dB]"),
+    Case("offset-nan", T, "exterior_offset_db = [2, 4, 1]", "exterior_offset_db = nan",
+         "zone[1].exterior_offset_db", "nan is not a finite number"),
+    Case("flanking-negative", T, "flanking_tl_db = 45", "flanking_tl_db = -3",
+         "zone[1].flanking_tl_db", "must lie in [0 dB, 200 dB]"),
+    Case("flanking-frequencies-alone", T, "flanking_tl_db = [30, 40]\n", "",
+         "zone[2].flanking_bands_hz", "needs flanking_tl_db as well"),
+    Case("flanking-with-unit", T, "flanking_tl_db = 45", 'flanking_tl_db = "45 dB"',
+         "zone[1].flanking_tl_db", "the unit is dB: give the number alone"),
+    Case("package-flanking-list-alone", T, "flanking_tl_db = 50", "flanking_tl_db = [50, 60]",
+         "package[2].zone.wall.flanking_bands_hz", "missing: a list of flanking_tl_db"),
+    Case("leak-shape-unknown", T, 'shape = "slit"', 'shape = "slot"',
+         "package[1].zone.wall.leak[1].shape", "did you mean 'slit'?"),
+    Case("leak-shape-missing", T, 'shape = "slit"\n', "",
+         "package[1].zone.wall.leak[1].shape", "missing: give shape (slit or hole)"),
+    Case("leak-single-table", T, "[[package.zone.wall.leak]]\nname", "[package.zone.wall.leak]"
+         "\nname", "package[1].zone.wall.leak", "expected an array of tables ([[leak]])"),
+    Case("leak-width-negative", T, 'width = "1 mm"', 'width = "-1 mm"',
+         "package[1].zone.wall.leak[1].width", "must be > 0"),
+    Case("leak-width-missing", T, 'width = "1 mm"\n', "",
+         "package[1].zone.wall.leak[1].width", "missing required key"),
+    Case("leak-slit-count", T, 'width = "1 mm"', 'width = "1 mm"\ncount = 2',
+         "package[1].zone.wall.leak[1].count", "unknown key"),
+    Case("leak-behind-too-far", T, "behind_layer = 1", "behind_layer = 2",
+         "package[1].zone.wall.leak[1].behind_layer", "the stack has 2 layers: a leak "
+         "behind layer 2 opens nowhere"),
+    Case("leak-behind-negative", T, "behind_layer = 1", "behind_layer = -1",
+         "package[1].zone.wall.leak[1].behind_layer", "must be >= 0"),
+    Case("leak-behind-float", T, "behind_layer = 1", "behind_layer = 1.0",
+         "package[1].zone.wall.leak[1].behind_layer", "expected an integer, got float"),
+    Case("leak-larger-than-zone", T, 'length = "2 m"', 'length = "30 km"',
+         "package[1].zone.wall.leak", "the leaks' open area (30 m^2) must be smaller than "
+         "the zone's area (20 m^2)"),
+    Case("hole-count-zero", T, "count = 4", "count = 0", "package[2].zone.wall.leak[1].count",
+         "must be >= 1"),
+    Case("hole-behind-too-far", T, "behind_layer = 2", "behind_layer = 3",
+         "package[2].zone.wall.leak[1].behind_layer", "opens nowhere"),
+    Case("source-unknown-condition", T, 'conditions = ["cruise"]', 'conditions = ["crusie"]',
+         "interior_source[1].conditions[1]", "no condition 'crusie'; did you mean 'cruise'?"),
+    Case("source-conditions-string", T, 'conditions = ["cruise"]', 'conditions = "cruise"',
+         "interior_source[1].conditions", "expected a list (array) of values"),
+    Case("source-name-of-zone", T, 'name = "air conditioning"', 'name = "wall"',
+         "interior_source[1].name", "is the name of a zone"),
+    Case("source-name-missing", T, 'name = "air conditioning"\n', "", "interior_source[1].name",
+         "missing required key"),
+    Case("source-duplicate", T, "[[interior_source]]", '[[interior_source]]\nname = "air '
+         'conditioning"\nbands_hz = [100]\nlevels_db = [50]\n[[interior_source]]',
+         "interior_source[2].name", "duplicate name 'air conditioning'"),
+    Case("source-bands-outside", T, "bands_hz = [125]", "bands_hz = [250]",
+         "interior_source[1].bands_hz", "bands do not fit: 200 .. 315 Hz reaches outside "
+         "condition 'cruise'"),
+    Case("source-bandwidth-unknown", T, 'bandwidth = "octave"', 'bandwidth = "half"',
+         "interior_source[1].bandwidth", "one of third, octave"),
+    Case("source-octave-bands-wrong", T, "bands_hz = [125]", "bands_hz = [160]",
+         "interior_source[1].bands_hz", "consecutive ISO 266 octave"),
+    Case("source-levels-count", T, "levels_db = [60]", "levels_db = [60, 58]",
+         "interior_source[1].levels_db", "2 values for 1 bands"),
+    Case("source-level-huge", T, "levels_db = [60]", "levels_db = [1e9]",
+         "interior_source[1].levels_db[1]", "must lie in [-50 dB, 200 dB]"),
+    Case("condition-octave-with-thirds", T, 'name = "cruise"\n', 'name = "cruise"\n'
+         'bandwidth = "octave"\n', "condition[1].bands_hz", "consecutive ISO 266 octave"),
+    Case("cabin-octave-with-thirds", T, 'volume = "40 m^3"', 'volume = "40 m^3"\nbandwidth = '
+         '"octave"', "cabin.bands_hz", "consecutive ISO 266 octave"),
+    Case("structure-string", T, 'structure = true', 'structure = "yes"',
+         "package[2].zone.wall.layer[1].structure", "expected true or false, got string"),
+    Case("structure-layer-number", S, 'name = "trim"', 'name = "trim"\nstructure = 1',
+         "layer[4].structure", "expected true or false, got integer 1"),
     # files that are not TOML text
     Case("binary", T, None, b"\x00\x01\xff\xfe garbage \x80", "", "not UTF-8 text"),
     Case("latin-1", S, None, 'title = "caf\xe9"\n'.encode("latin-1"), "", "not UTF-8 text"),
@@ -404,6 +515,16 @@ ACCEPTED = [
     Case("multi-line-notes", T, 'title = "corpus study"',
          'title = "corpus study"\nnotes = """two\n\tlines"""', "", ""),
     Case("stack-bom", S, None, "\ufeff" + STACK, "", ""),
+    Case("octave-condition", T, f'name = "climb"\nbands_hz = {BANDS}\nlevels_db = [103, 104, '
+         '104, 103, 102]', 'name = "climb"\nbandwidth = "octave"\nbands_hz = [125]\n'
+         'levels_db = [108]', "", ""),
+    Case("octave-cabin", T, f'bands_hz = {BANDS}\nreverberation_time = ["0.6 s", "0.6 s", '
+         '"0.5 s", "0.5 s", "0.5 s"]', 'bandwidth = "octave"\nbands_hz = [125, 250]\n'
+         'reverberation_time = ["0.6 s", "0.5 s"]', "", ""),
+    Case("leak-zero-depth", T, 'depth = "5 mm"', 'depth = "0 mm"', "", ""),
+    Case("source-every-condition", T, 'conditions = ["cruise"]\n', "", "", ""),
+    Case("one-offset", T, "exterior_offset_db = [2, 4, 1]\noffset_bands_hz = [63, 125, 1000]",
+         "exterior_offset_db = -3", "", ""),
 ]
 
 

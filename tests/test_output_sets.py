@@ -201,6 +201,8 @@ def odd_names(tmp_path_factory):
     text = DEMO.read_text()
     text = text.replace('name = "cruise"', 'name = "=1+2"')
     text = text.replace('name = "climb"', 'name = "@SUM(A1:A9)"')
+    text = text.replace('conditions = ["cruise"]', 'conditions = ["=1+2"]')
+    text = text.replace('conditions = ["climb"]', 'conditions = ["@SUM(A1:A9)"]')
     folder = tmp_path_factory.mktemp("odd")
     path = folder / "odd.toml"
     path.write_text(text)

@@ -265,6 +265,34 @@ def test_planned_shapes_refuse_wrong_forms(table, key, words):
     assert line.startswith(f"f.toml: {key}: ") and words in line, line
 
 
+# ------------------------------------------------------------------ frequencies
+
+CURVE = {"tl_db": Field("db", allow_zero=True, shape="one_or_list", length="points_hz"),
+         "points_hz": Field("frequencies", needs=("tl_db",))}
+
+
+def test_frequencies_are_any_rising_frequencies():
+    v, lines = read({"tl_db": [30, 45, 50], "points_hz": [63, 1000, 4000.5]}, CURVE)
+    assert not lines and v["points_hz"] == (63.0, 1000.0, 4000.5)
+    assert v["tl_db"] == (30.0, 45.0, 50.0)
+
+
+@pytest.mark.parametrize("table,key,words", [
+    ({"tl_db": [1, 2], "points_hz": [100, 100]}, "t.points_hz", "frequencies must rise"),
+    ({"tl_db": [1, 2], "points_hz": [100, 50]}, "t.points_hz", "frequencies must rise"),
+    ({"tl_db": [1], "points_hz": [5]}, "t.points_hz[1]", "from 10 to 20000"),
+    ({"tl_db": [1], "points_hz": [True]}, "t.points_hz[1]", "got boolean true"),
+    ({"tl_db": [1], "points_hz": 100}, "t.points_hz", "expected a list of frequencies"),
+    ({"tl_db": [1], "points_hz": []}, "t.points_hz", "expected a list of frequencies"),
+    ({"tl_db": [1, 2, 3], "points_hz": [100, 200]}, "t.tl_db",
+     "3 values for 2 frequencies of points_hz: the frequencies do not match"),
+    ({"points_hz": [100]}, "t.points_hz", "needs tl_db as well"),
+])
+def test_frequencies_refuse_wrong_forms(table, key, words):
+    line = one_problem(table, CURVE)
+    assert line.startswith(f"f.toml: {key}: ") and words in line, line
+
+
 # ------------------------------------------------------------------ errors
 
 

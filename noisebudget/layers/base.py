@@ -66,7 +66,9 @@ class Field:
         ``"boolean"``, ``"choice"`` (one of ``choices``), ``"name"`` (a label: no control
         characters), ``"text"``, ``"date"``, ``"path"`` (a file, relative to the file
         that names it), ``"bands"`` (nominal band frequencies in Hz; octave bands where
-        the table's ``bandwidth`` key, declared before, says ``"octave"``), ``"raw"`` (any
+        the table's ``bandwidth`` key, declared before, says ``"octave"``),
+        ``"frequencies"`` (rising frequencies in Hz, plain numbers: where the values of
+        another key are given, between which they are interpolated), ``"raw"`` (any
         value, read later against another field), ``"table"`` (keys of ``schema``),
         ``"tables"`` (an array of such tables), ``"named"`` (tables keyed by a name of the
         user's, each with the keys of ``schema``), or a kind read by ``read``.

@@ -8,9 +8,9 @@ __all__ = ["CAUTIONS", "REPORT_KINDS", "report_targets", "write_reports"]
 
 CAUTIONS = (
     "Every figure in this report is an engineering estimate from idealised models: "
-    "laterally infinite flat layers; frames, stringers, fuselage curvature and "
-    "structure-borne paths are not modelled, and leaks and flanking only as far as the "
-    "study lists them.",
+    "laterally infinite layers (curvature, smeared stiffeners and a finite-bay radiation "
+    "correction only where the study gives them); leaks by idealised aperture models; "
+    "flanking and structure-borne noise only as the study states them.",
     "Transmission-loss tests of representative panels and ground and flight surveys of the "
     "cabin decide the values a programme flies with.",
     "Certification under the applicable airworthiness requirements (such as 14 CFR Part 25 "
