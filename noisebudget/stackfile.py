@@ -44,6 +44,18 @@ def _suggest(word, options) -> str:
     return f"; did you mean {near[0]!r}?" if near else ""
 
 
+def _parse_value(value, spec, file: str, path: str) -> float:
+    """One number or quantity of a field, in SI, checked for sign."""
+    if spec.kind == "number":
+        v = parse_dimensionless(value, file, path)
+    else:
+        v = parse_quantity(value, spec.kind, file, path)
+    if spec.positive and (v < 0 or (v == 0 and not spec.allow_zero)):
+        bound = ">= 0" if spec.allow_zero else "> 0"
+        raise InputError(file, path, f"must be {bound}, got {value!r}")
+    return v
+
+
 def parse_fields(table: dict, schema: dict, file: str, where: str, errors: list,
                  skip=()) -> dict:
     """Check keys against ``schema`` and convert values to SI; problems go to ``errors``."""
@@ -68,14 +80,15 @@ def parse_fields(table: dict, schema: dict, file: str, where: str, errors: list,
             if spec.kind == "tables":
                 out[key] = value
                 continue
-            if spec.kind == "number":
-                v = parse_dimensionless(value, file, path)
-            else:
-                v = parse_quantity(value, spec.kind, file, path)
-            if spec.positive and (v < 0 or (v == 0 and not spec.allow_zero)):
-                bound = ">= 0" if spec.allow_zero else "> 0"
-                raise InputError(file, path, f"must be {bound}, got {value!r}")
-            out[key] = v
+            if isinstance(value, list) and spec.list_lengths:
+                if len(value) not in spec.list_lengths:
+                    counts = " or ".join(str(n) for n in spec.list_lengths)
+                    raise InputError(file, path, f"expected one value or a list of {counts}, "
+                                                 f"got a list of {len(value)}")
+                out[key] = tuple(_parse_value(item, spec, file, f"{path}[{i + 1}]")
+                                 for i, item in enumerate(value))
+                continue
+            out[key] = _parse_value(value, spec, file, path)
         except InputError as exc:
             errors.append(exc)
     for key, spec in schema.items():

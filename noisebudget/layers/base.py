@@ -39,7 +39,9 @@ class Field:
 
     ``kind`` is a quantity kind of :mod:`noisebudget.units`, ``"number"`` for a plain
     dimensionless number, ``"choice"`` (one of ``choices``) or ``"cells"`` (tile cells).
-    ``positive`` rejects zero and negative values.
+    ``positive`` rejects zero and negative values. ``list_lengths`` gives the lengths of
+    a list the key accepts instead of one value (``(2,)``: ``[axial, hoop]``); the parser
+    then hands the layer a tuple of SI values.
     """
 
     kind: str
@@ -47,6 +49,7 @@ class Field:
     positive: bool = True
     choices: tuple[str, ...] = ()
     allow_zero: bool = False
+    list_lengths: tuple[int, ...] = ()
 
 
 @dataclass(frozen=True)
