@@ -5,7 +5,8 @@ Time convention ``exp(+j omega t)`` throughout; SI units inside the library.
 
 from .bands import a_weighting, c_weighting, octave_bands, third_octave_bands
 from .errors import InputError, InputErrors, ModelRangeWarning
-from .layers import AirGap, Plate, Porous, Screen, Septum
+from .finite_size import Panel
+from .layers import AirGap, Plate, Porous, Sandwich, Screen, Septum
 from .media import Air, standard_atmosphere
 from .ratings import ratings
 from .stack import Stack
@@ -23,6 +24,6 @@ def __getattr__(name):
     raise AttributeError(f"module 'noisebudget' has no attribute {name!r}")
 
 __all__ = ["a_weighting", "c_weighting", "octave_bands", "ratings", "third_octave_bands",
-           "Air", "AirGap", "InputError", "InputErrors", "ModelRangeWarning", "Plate",
-           "Porous", "Screen", "Septum", "Stack", "__version__", "load_stack", "load_study",
-           "run_study", "parse_stack", "standard_atmosphere"]
+           "Air", "AirGap", "InputError", "InputErrors", "ModelRangeWarning", "Panel", "Plate",
+           "Porous", "Sandwich", "Screen", "Septum", "Stack", "__version__", "load_stack",
+           "load_study", "run_study", "parse_stack", "standard_atmosphere"]

@@ -16,13 +16,24 @@ then, pass after pass, the panels with the largest error estimate are bisected u
 ``sum(error) <= rtol * integral`` at every frequency. Each panel uses the 15-point
 Gauss-Kronrod rule with its embedded 7-point Gauss rule for the error estimate
 (Kronrod 1965; Piessens et al., QUADPACK, 1983).
+
+Azimuth. For a stack whose layers depend on the direction of the trace wave (curved,
+tensioned or stiffened skins), the average runs over the azimuth ``phi`` as well:
+``tau_d = (1 / pi) int_0^2pi int tau sin(theta) cos(theta) dtheta dphi / (sin^2 theta_max
+/ 2)``. Direction-dependent layers have their principal axes along the stack's axial and
+hoop directions, so tau is even in ``phi`` and in ``pi - phi`` and one quadrant suffices:
+``tau_d = (2 / pi) int_0^(pi/2) tau_theta(phi) dphi``. :func:`azimuth_average` integrates
+that adaptively like the polar integral; :func:`azimuth_mean_inverse_square` is the
+closed form the stack uses when a single sheet carries the direction dependence.
+Time convention ``exp(+j omega t)`` where complex values appear.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["INCIDENCE", "GK15", "default_theta_max_deg", "paris_average"]
+__all__ = ["INCIDENCE", "GK15", "adaptive_gauss_kronrod", "azimuth_average",
+           "azimuth_mean_inverse_square", "default_theta_max_deg", "paris_average"]
 
 INCIDENCE = ("normal", "field", "diffuse")
 
@@ -52,12 +63,16 @@ def default_theta_max_deg(incidence: str) -> float:
 
 
 def _initial_panels(k0, sharp_kt, umax):
-    """Panel edges (nf, m) split at sharp points and graded towards them and grazing."""
+    """Panel edges (nf, m) split at sharp points and graded towards them and grazing.
+
+    Sharp points given as NaN (a feature absent at that frequency) are ignored.
+    """
     nf = k0.shape[0]
     if sharp_kt is None or sharp_kt.shape[1] == 0:
         splits = np.empty((nf, 0))
     else:
-        splits = np.sort(np.clip((sharp_kt / k0[:, None]) ** 2, 0.0, umax), axis=1)
+        u = (sharp_kt / k0[:, None]) ** 2
+        splits = np.sort(np.clip(np.where(np.isnan(u), umax, u), 0.0, umax), axis=1)
     edges = np.concatenate([np.zeros((nf, 1)), splits, np.full((nf, 1), umax)], axis=1)
     fractions = np.concatenate([[0.0], _GRADING ** np.arange(_LEVELS, 0, -1), [1.0]])
     lo, hi = [], []
@@ -75,24 +90,77 @@ def _initial_panels(k0, sharp_kt, umax):
     return np.concatenate(lo, axis=1), np.concatenate(hi, axis=1)
 
 
-def _gk(tau_fn, rows, lo, hi):
+def _gk(fn, rows, lo, hi):
     """Kronrod integral and error estimate of each panel (rows of frequencies)."""
     x, wk, wg = GK15
     c, h = (lo + hi) / 2, (hi - lo) / 2
-    u = c[..., None] + h[..., None] * x
-    theta = np.arcsin(np.sqrt(np.clip(u, 0.0, 1.0)))
-    tau = tau_fn(rows, theta.reshape(len(rows), -1)).reshape(u.shape)
-    ik = h * (tau @ wk)
-    ig = h * (tau @ wg)
+    nodes = c[..., None] + h[..., None] * x
+    q = fn(rows, nodes.reshape(len(rows), -1)).reshape(nodes.shape)
+    ik = h * (q @ wk)
+    ig = h * (q @ wg)
     # QUADPACK's error scaling (Piessens et al. 1983, qk15): the raw |K - G| is far too
     # pessimistic where the integrand is smooth
     safe_h = np.where(h > 0, h, 1.0)
-    resasc = h * (np.abs(tau - (ik / (2 * safe_h))[..., None]) @ wk)
+    resasc = h * (np.abs(q - (ik / (2 * safe_h))[..., None]) @ wk)
     raw = np.abs(ik - ig)
     with np.errstate(divide="ignore", invalid="ignore"):
         scaled = np.where(resasc > 0, resasc * np.minimum(1.0, (200 * raw / resasc) ** 1.5),
                           raw)
     return ik, scaled
+
+
+def adaptive_gauss_kronrod(fn, lo, hi, rtol: float = 3e-3, max_passes: int = 60,
+                           per_pass: int = 8) -> np.ndarray:
+    """Integrals over the union of panels ``lo .. hi`` per row, adaptive per row.
+
+    Parameters
+    ----------
+    fn : callable
+        ``fn(rows, x)`` returns the integrand at the rows ``rows`` (index array) and
+        abscissae ``x`` (len(rows), m).
+    lo, hi : ndarray (n, p)
+        Initial panels of each row (zero-width panels are allowed and cost nothing).
+    rtol : float
+        Estimated relative accuracy at every row.
+    max_passes, per_pass : int
+        Refinement passes at most, panels bisected per row and pass.
+
+    Returns
+    -------
+    ndarray (n,)
+
+    Notes
+    -----
+    15-point Gauss-Kronrod panels with the embedded 7-point Gauss rule and QUADPACK's
+    error scaling (Piessens et al. 1983); each pass bisects the ``per_pass`` panels with
+    the largest error of every row whose summed error exceeds ``rtol`` of its integral.
+    """
+    lo, hi = np.array(lo, dtype=float), np.array(hi, dtype=float)
+    n = lo.shape[0]
+    val, err = _gk(fn, np.arange(n), lo, hi)
+    for _ in range(max_passes):  # refinement passes, each vectorised over rows
+        total = val.sum(axis=1)
+        todo = np.flatnonzero(err.sum(axis=1) > rtol * np.abs(total))
+        if todo.size == 0:
+            break
+        k = min(per_pass, lo.shape[1])
+        pick = np.argpartition(-err[todo], k - 1, axis=1)[:, :k]
+        a = np.take_along_axis(lo[todo], pick, 1)
+        b = np.take_along_axis(hi[todo], pick, 1)
+        m = (a + b) / 2
+        v, e = _gk(fn, todo, np.concatenate([a, m], 1), np.concatenate([m, b], 1))
+        # left halves replace the picked panels; right halves are appended (other rows
+        # get empty panels so that the arrays stay rectangular)
+        lo_t, hi_t, val_t, err_t = lo[todo], hi[todo], val[todo], err[todo]
+        np.put_along_axis(hi_t, pick, m, 1)
+        np.put_along_axis(val_t, pick, v[:, :k], 1)
+        np.put_along_axis(err_t, pick, e[:, :k], 1)
+        lo[todo], hi[todo], val[todo], err[todo] = lo_t, hi_t, val_t, err_t
+        new = np.zeros((4, n, k))
+        new[0][todo], new[1][todo], new[2][todo], new[3][todo] = m, b, v[:, k:], e[:, k:]
+        lo, hi = np.concatenate([lo, new[0]], 1), np.concatenate([hi, new[1]], 1)
+        val, err = np.concatenate([val, new[2]], 1), np.concatenate([err, new[3]], 1)
+    return val.sum(axis=1)
 
 
 def paris_average(tau_fn, k0, sharp_kt, theta_max: float, rtol: float = 3e-3,
@@ -107,7 +175,7 @@ def paris_average(tau_fn, k0, sharp_kt, theta_max: float, rtol: float = 3e-3,
     k0 : ndarray (nf,)
         Source-side wavenumbers.
     sharp_kt : ndarray (nf, p) or None
-        Trace wavenumbers of known sharp features (plate coincidence).
+        Trace wavenumbers of known sharp features (plate coincidence); NaN where absent.
     theta_max : float
         Limit angle in rad.
     rtol : float
@@ -121,34 +189,123 @@ def paris_average(tau_fn, k0, sharp_kt, theta_max: float, rtol: float = 3e-3,
     ndarray (nf,)
     """
     k0 = np.asarray(k0, dtype=float)
-    nf = k0.shape[0]
     umax = np.sin(theta_max) ** 2
     lo, hi = _initial_panels(k0, sharp_kt, umax)
-    rows_all = np.arange(nf)
-    val, err = _gk(tau_fn, rows_all, lo, hi)
-    for _ in range(max_passes):  # refinement passes, each vectorised over frequency
-        total = val.sum(axis=1)
-        todo = np.flatnonzero(err.sum(axis=1) > rtol * np.abs(total))
-        if todo.size == 0:
-            break
-        k = min(per_pass, lo.shape[1])
-        pick = np.argpartition(-err[todo], k - 1, axis=1)[:, :k]
-        a = np.take_along_axis(lo[todo], pick, 1)
-        b = np.take_along_axis(hi[todo], pick, 1)
-        m = (a + b) / 2
-        v, e = _gk(tau_fn, todo, np.concatenate([a, m], 1), np.concatenate([m, b], 1))
-        # left halves replace the picked panels; right halves are appended (other rows
-        # get empty panels so that the arrays stay rectangular)
-        lo_t, hi_t, val_t, err_t = lo[todo], hi[todo], val[todo], err[todo]
-        np.put_along_axis(hi_t, pick, m, 1)
-        np.put_along_axis(val_t, pick, v[:, :k], 1)
-        np.put_along_axis(err_t, pick, e[:, :k], 1)
-        lo[todo], hi[todo], val[todo], err[todo] = lo_t, hi_t, val_t, err_t
-        new_lo = np.zeros((nf, k))
-        new_hi = np.zeros((nf, k))
-        new_v = np.zeros((nf, k))
-        new_e = np.zeros((nf, k))
-        new_lo[todo], new_hi[todo], new_v[todo], new_e[todo] = m, b, v[:, k:], e[:, k:]
-        lo, hi = np.concatenate([lo, new_lo], 1), np.concatenate([hi, new_hi], 1)
-        val, err = np.concatenate([val, new_v], 1), np.concatenate([err, new_e], 1)
-    return val.sum(axis=1) / umax
+
+    def integrand(rows, u):
+        return tau_fn(rows, np.arcsin(np.sqrt(np.clip(u, 0.0, 1.0))))
+
+    return adaptive_gauss_kronrod(integrand, lo, hi, rtol, max_passes, per_pass) / umax
+
+
+def azimuth_average(fn, nf: int, rtol: float = 3e-3, panels: int = 2,
+                    max_passes: int = 30) -> np.ndarray:
+    """Average over the azimuth quadrant ``(2 / pi) int_0^(pi/2) g(phi) dphi`` per frequency.
+
+    Parameters
+    ----------
+    fn : callable
+        ``fn(rows, phi)`` returns ``g`` at the frequencies ``rows`` (index array) and
+        azimuths ``phi`` (len(rows), m) in rad from the axial direction; typically a
+        polar Paris average at each azimuth.
+    nf : int
+        Number of frequencies.
+    rtol : float
+        Estimated relative accuracy at every frequency.
+    panels : int
+        Equal initial panels on the quadrant.
+
+    Returns
+    -------
+    ndarray (nf,)
+
+    Notes
+    -----
+    Valid for layers whose principal axes are the axial and hoop directions (tau even
+    in ``phi`` and in ``pi - phi``). Adaptive Gauss-Kronrod as
+    :func:`adaptive_gauss_kronrod`, vectorised over frequency.
+    """
+    edges = np.linspace(0.0, np.pi / 2, panels + 1)
+    lo = np.broadcast_to(edges[:-1], (nf, panels))
+    hi = np.broadcast_to(edges[1:], (nf, panels))
+    return adaptive_gauss_kronrod(fn, lo, hi, rtol, max_passes) / (np.pi / 2)
+
+
+def _arcsine_mean_pole(r):
+    """``(1 / pi) int_0^1 dx / (sqrt(x (1 - x)) (x - r))`` for complex r off [0, 1].
+
+    Equals ``-1 / (sqrt(r) sqrt(r - 1))`` with principal square roots, whose product has
+    its branch cut on [0, 1] (Gradshteyn & Ryzhik 3.121 by analytic continuation).
+    """
+    return -1.0 / (np.sqrt(r) * np.sqrt(r - 1.0))
+
+
+def _off_axis(r):
+    """Move roots that sit on the real axis (no loss at all) off it by a relative 1e-12,
+    so that a real root outside [0, 1] stays a removable 0/0 and one inside gives a large
+    finite peak."""
+    tiny = 1e-12 * (1.0 + np.abs(r))
+    return np.where(np.abs(r.imag) < tiny, r.real + 1j * tiny, r)
+
+
+def azimuth_mean_inverse_square(p0, p1, p2) -> np.ndarray:
+    """Closed-form azimuth mean ``(2 / pi) int_0^(pi/2) |p(cos^2 phi)|^-2 dphi``.
+
+    Parameters
+    ----------
+    p0, p1, p2 : complex array_like (broadcast together)
+        Coefficients of ``p(x) = p0 + p1 x + p2 x^2``, ``x = cos^2 phi``.
+
+    Returns
+    -------
+    ndarray
+        The mean, real and positive.
+
+    Notes
+    -----
+    With ``x = cos^2 phi`` the mean is ``(1 / pi) int_0^1 dx / (sqrt(x (1 - x)) |p(x)|^2)``.
+    ``|p|^2 = |p2|^2 (x - r1)(x - r2)(x - conj r1)(x - conj r2)`` splits into partial
+    fractions over its four roots, and each ``1 / (x - r)`` has the arcsine-weighted mean
+    ``J(r) = -1 / (sqrt(r) sqrt(r - 1))`` (principal roots; r off [0, 1]). The two
+    conjugate terms are complex conjugates, so the mean is
+    ``2 Re sum_k J(r_k) / (|p2|^2 prod_(j != k) (r_k - rho_j))``. Coincident roots are
+    moved apart by 1e-6 of their distance to [0, 1] (the error is second order in that
+    shift); roots on
+    the real axis (no loss anywhere) are moved off it by a relative 1e-12. The degree
+    drops where ``|p2|`` (then ``|p1|``) is below 1e-13 of the other coefficients.
+    """
+    p0, p1, p2 = np.broadcast_arrays(np.asarray(p0, complex), np.asarray(p1, complex),
+                                     np.asarray(p2, complex))
+    out = np.empty(p0.shape)
+    scale = np.maximum(np.abs(p0), np.abs(p1))
+    quad = np.abs(p2) > 1e-13 * scale
+    lin = ~quad & (np.abs(p1) > 1e-13 * np.abs(p0))
+    const = ~quad & ~lin
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        out[const] = 1.0 / np.abs(p0[const]) ** 2
+        if lin.any():
+            a0, a1 = p0[lin], p1[lin]
+            r = _off_axis(-a0 / a1)
+            out[lin] = _arcsine_mean_pole(r).imag / (np.abs(a1) ** 2 * r.imag)
+        if quad.any():
+            a0, a1, a2 = p0[quad], p1[quad], p2[quad]
+            sq = np.sqrt(a1 * a1 - 4 * a0 * a2)
+            sq = np.where((a1.conj() * sq).real >= 0, sq, -sq)
+            q = -(a1 + sq) / 2
+            q = np.where(q == 0, 1e-300, q)
+            r1, r2 = q / a2, a0 / q
+            mid, gap = (r1 + r2) / 2, (r1 - r2) / 2
+            # the pair's sum varies on the scale of its distance to [0, 1]: a separation
+            # of 1e-6 of that keeps the shift error ~1e-12 and the cancellation ~1e-10
+            least = np.maximum(1e-6 * np.abs(mid - np.clip(mid.real, 0.0, 1.0)),
+                               1e-14 * (1.0 + np.abs(mid)))
+            close = np.abs(gap) < least
+            gap = np.where(close, np.where(gap == 0, 1.0, gap / np.where(gap == 0, 1, np.abs(
+                gap))) * least, gap)
+            r1, r2 = _off_axis(mid + gap), _off_axis(mid - gap)
+            total = 0.0
+            for ra, rb in ((r1, r2), (r2, r1)):  # the two roots of p
+                den = (a2 * (ra - rb)) * (a2.conj() * (ra - rb.conj())) * (2j * ra.imag)
+                total = total + _arcsine_mean_pole(ra) / den
+            out[quad] = 2 * total.real
+    return out

@@ -14,6 +14,21 @@ transmission coefficient (ratio of normal intensities) is::
 
 which for equal air on both sides is Allard & Atalla (2009) eq. 11.9x form
 ``tau = |2 / (T11 + T12 cos(theta)/Z0 + T21 Z0/cos(theta) + T22)|^2``.
+
+Azimuth. Direction-dependent layers (curved, stiffened or unequally tensioned skins)
+get the trace wave's azimuth; the arrays then carry a trailing azimuth axis. When a
+single sheet carries the direction dependence, its impedance is a polynomial in
+``x = cos^2 phi``, the cascade's denominator is affine in it (``den = alpha + beta Z``
+with ``beta = (L11 Y1 + L21)(R21 + R22 Y2)`` for the layers L before and R after the
+sheet), and the azimuth average of tau has the closed form of
+:func:`noisebudget.incidence.azimuth_mean_inverse_square`; otherwise the average is
+nested: adaptive in azimuth, and at each azimuth adaptive in angle.
+
+Finite bay. With a :class:`~noisebudget.finite_size.Panel`, the incidence averages
+window the radiated side (Villot, Guigou & Gagliardini 2001): the receiving face's
+velocity ``v2 = 2 Y1 Y2 p_i / den`` radiates with the bay's radiation efficiency
+``sigma`` instead of the infinite ``Re(Y2) / (rho2 c2 |Y2|^2)``, so
+``tau = 4 Y1 rho2 c2 |Y2|^2 sigma / |den|^2``.
 """
 
 from __future__ import annotations
@@ -23,7 +38,14 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from .bands import Bands, band_average
-from .incidence import INCIDENCE, default_theta_max_deg, paris_average
+from .finite_size import Panel
+from .incidence import (
+    INCIDENCE,
+    azimuth_average,
+    azimuth_mean_inverse_square,
+    default_theta_max_deg,
+    paris_average,
+)
 from .layers.base import FluidElement, Layer, SheetElement
 from .media import Air
 
@@ -107,6 +129,15 @@ class Stack:
         vented to the cabin).
     labels : tuple of str
         A display name per layer.
+    panel : Panel or None
+        The bay the stack fills; with it, incidence averages include the finite-size
+        radiation correction. ``None``: an infinite stack, as before.
+
+    Notes
+    -----
+    The stack mounts its layers once (:attr:`mounted_layers`): a curved skin without a
+    given tension takes it from ``receiver_air.pressure - source_air.pressure``. The
+    layers themselves stay as given.
     """
 
     layers: tuple = ()
@@ -114,6 +145,7 @@ class Stack:
     receiver_air: Air | None = None
     cavity_air: Air | None = None
     labels: tuple = ()
+    panel: Panel | None = None
 
     def __post_init__(self):
         object.__setattr__(self, "layers", tuple(self.layers))
@@ -127,6 +159,21 @@ class Stack:
         for layer in self.layers:
             if not isinstance(layer, Layer):
                 raise TypeError(f"not a layer: {layer!r}")
+        if self.panel is not None and not isinstance(self.panel, Panel):
+            raise TypeError(f"not a Panel: {self.panel!r}")
+        dp = self.receiver_air.pressure - self.source_air.pressure
+        object.__setattr__(self, "_mounted",
+                           tuple(layer.pressurised(dp) for layer in self.layers))
+
+    @property
+    def mounted_layers(self) -> tuple:
+        """The layers as mounted in this stack (pressurisation tension resolved)."""
+        return self._mounted
+
+    @property
+    def isotropic(self) -> bool:
+        """False when a layer's response depends on the trace wave's azimuth."""
+        return all(layer.isotropic for layer in self._mounted)
 
     @property
     def areal_mass(self) -> float:
@@ -138,37 +185,104 @@ class Stack:
         """Total thickness in m."""
         return float(sum(layer.thickness for layer in self.layers))
 
+    def with_panel(self, width: float, height: float) -> Stack:
+        """The same stack filling a bay of ``width`` x ``height`` m."""
+        return replace(self, panel=Panel(width, height))
+
     def reversed(self) -> Stack:
-        """The same layers seen from the other side, the two airs swapped."""
-        return replace(self, layers=self.layers[::-1], labels=self.labels[::-1],
+        """The same layers seen from the other side, the two airs swapped (the layers
+        keep the tension they have mounted here)."""
+        return replace(self, layers=self._mounted[::-1], labels=self.labels[::-1],
                        source_air=self.receiver_air, receiver_air=self.source_air)
 
-    def _matrices(self, omega, theta):
-        """The cascade ``(a, b, c, d, log_scale)`` and the receiving air's normal
-        wavenumber for omega (nf, 1) and source-side angles theta (nf or 1, nth).
+    def _elements(self, layers, omega, kt, azimuth):
+        air = self.cavity_air
+        return [layer.element(omega, kt, air) if layer.isotropic
+                else layer.element(omega, kt, air, azimuth) for layer in layers]
+
+    def _receiver_kz(self, omega, theta):
+        """The receiving air's normal wavenumber for source-side angles theta.
 
         ``kz2 = sqrt(k2^2 - k1^2 sin^2 theta)`` is formed as ``k2^2 - k1^2 + (k1 cos)^2``,
         exact at grazing in equal air, and taken as ``-j |.|`` where evanescent.
         """
         k1 = omega / self.source_air.sound_speed
-        kt = k1 * np.sin(theta)
-        elements = [layer.element(omega, kt, self.cavity_air) for layer in self.layers]
         arg2 = ((omega / self.receiver_air.sound_speed) ** 2 - k1**2
                 + (k1 * np.cos(theta)) ** 2)
-        kz2 = np.where(arg2 >= 0, np.sqrt(np.abs(arg2)) + 0j, -1j * np.sqrt(np.abs(arg2)))
-        return cascade(elements, omega, kt), kz2
+        return np.where(arg2 >= 0, np.sqrt(np.abs(arg2)) + 0j, -1j * np.sqrt(np.abs(arg2)))
 
-    def _tau(self, omega, theta):
-        """tau for omega (nf, 1) and source-side angles theta (nf, nth) or (1, nth)."""
-        (a, b, c, d, log_scale), kz2 = self._matrices(omega, theta)
+    def _matrices(self, omega, theta, azimuth=None):
+        """The cascade ``(a, b, c, d, log_scale)`` and the receiving air's normal
+        wavenumber for omega (nf, 1) and source-side angles theta (nf or 1, nth); with
+        ``azimuth`` broadcasting against them, direction-dependent layers get it."""
+        kt = omega / self.source_air.sound_speed * np.sin(theta)
+        elements = self._elements(self._mounted, omega, kt, azimuth)
+        return cascade(elements, omega, kt), self._receiver_kz(omega, theta)
+
+    def _radiated(self, omega, theta, y2, radiation):
+        """The receiving side's radiated share: ``Re Y2`` for the infinite stack,
+        ``rho2 c2 |Y2|^2 sigma`` for a bay (``radiation(kt)`` gives sigma)."""
+        if radiation is None:
+            return y2.real
+        kt = omega / self.source_air.sound_speed * np.sin(theta)
+        return self.receiver_air.impedance * np.abs(y2) ** 2 * radiation(kt)
+
+    def _tau(self, omega, theta, azimuth=None, radiation=None):
+        """tau for omega (nf, 1) and source-side angles theta (nf, nth) or (1, nth), at
+        the azimuth ``azimuth`` (broadcasting) for direction-dependent layers."""
+        (a, b, c, d, log_scale), kz2 = self._matrices(omega, theta, azimuth)
         y1 = np.cos(theta) / self.source_air.impedance
         y2 = kz2 / (omega * self.receiver_air.density)
         den = a * y1 + b * y1 * y2 + c + d * y2
         with np.errstate(under="ignore"):
-            return 4 * y1 * y2.real / np.abs(den) ** 2 * np.exp(-2 * log_scale)
+            return (4 * y1 * self._radiated(omega, theta, y2, radiation) / np.abs(den) ** 2
+                    * np.exp(-2 * log_scale))
 
-    def transmission_coefficient(self, f_hz, theta_rad) -> np.ndarray:
-        """Power transmission coefficient tau(f, theta), shape (nf, nth).
+    def _azimuth_sheet(self) -> int | None:
+        """Index of the single direction-dependent sheet whose impedance is a
+        polynomial in cos^2(phi) (closed-form azimuth average), else None."""
+        which = [i for i, layer in enumerate(self._mounted) if not layer.isotropic]
+        if len(which) == 1 and hasattr(self._mounted[which[0]], "azimuth_polynomial"):
+            return which[0]
+        return None
+
+    def _tau_azimuth_mean(self, omega, theta, sheet: int, radiation=None):
+        """Azimuth-averaged tau, ``(2/pi) int_0^(pi/2) tau dphi``, in closed form.
+
+        ``den = alpha + beta Z(x)`` with ``beta = (L11 Y1 + L21)(R21 + R22 Y2)``, and
+        ``Z = z0 + z1 x + z2 x^2`` (``x = cos^2 phi``) the sheet's impedance.
+        """
+        kt = omega / self.source_air.sound_speed * np.sin(theta)
+        layer = self._mounted[sheet]
+        la, lb, lc, ld, sl = cascade(self._elements(self._mounted[:sheet], omega, kt, None),
+                                     omega, kt)
+        ra, rb, rc, rd, sr = cascade(self._elements(self._mounted[sheet + 1:], omega, kt,
+                                                    None), omega, kt)
+        y1 = np.cos(theta) / self.source_air.impedance
+        y2 = self._receiver_kz(omega, theta) / (omega * self.receiver_air.density)
+        a, b = la * ra + lb * rc, la * rb + lb * rd
+        c, d = lc * ra + ld * rc, lc * rb + ld * rd
+        alpha = a * y1 + b * y1 * y2 + c + d * y2
+        beta = (la * y1 + lc) * (rc + rd * y2)
+        z0, z1, z2 = layer.azimuth_polynomial(omega, kt, self.cavity_air)
+        mean = azimuth_mean_inverse_square(alpha + beta * z0, beta * z1, beta * z2)
+        with np.errstate(under="ignore"):
+            tau = (4 * y1 * self._radiated(omega, theta, y2, radiation) * mean
+                   * np.exp(-2 * (sl + sr)))
+        return np.minimum(tau, 1.0)
+
+    @staticmethod
+    def _grid(f_hz, theta_rad):
+        f = np.atleast_1d(np.asarray(f_hz, dtype=float))
+        th = np.atleast_1d(np.asarray(theta_rad, dtype=float))
+        if np.any(~(f > 0)) or not np.all(np.isfinite(f)):
+            raise ValueError("frequencies must be positive and finite")
+        if np.any(~((th >= 0) & (th <= np.pi / 2))):
+            raise ValueError("angles must lie in 0 .. pi/2")
+        return f, th
+
+    def transmission_coefficient(self, f_hz, theta_rad, azimuth_rad=0.0) -> np.ndarray:
+        """Power transmission coefficient of the infinite stack, tau(f, theta[, phi]).
 
         Parameters
         ----------
@@ -176,22 +290,37 @@ class Stack:
             Frequencies in Hz, > 0.
         theta_rad : array_like (nth,)
             Angles of incidence from the normal on the source side, 0 .. pi/2.
-        """
-        f = np.atleast_1d(np.asarray(f_hz, dtype=float))
-        th = np.atleast_1d(np.asarray(theta_rad, dtype=float))
-        if np.any(f <= 0):
-            raise ValueError("frequencies must be positive")
-        if np.any((th < 0) | (th > np.pi / 2)):
-            raise ValueError("angles must lie in 0 .. pi/2")
-        return self._tau(2 * np.pi * f[:, None], th[None, :])
+        azimuth_rad : float or array_like (nphi,)
+            Azimuth of the trace wave from the axial direction (the hoop direction is
+            pi/2). A scalar gives shape (nf, nth); a 1-D array (nf, nth, nphi). Only
+            direction-dependent layers use it (see :attr:`isotropic`).
 
-    def sharp_trace_wavenumbers(self, omega) -> np.ndarray | None:
+        Returns
+        -------
+        ndarray (nf, nth) or (nf, nth, nphi)
+        """
+        f, th = self._grid(f_hz, theta_rad)
+        phi = np.asarray(azimuth_rad, dtype=float)
+        if phi.ndim > 1 or not np.all(np.isfinite(phi)):
+            raise ValueError("azimuth_rad must be a finite scalar or 1-D array")
+        omega = 2 * np.pi * f[:, None]
+        if phi.ndim == 0:
+            return self._tau(omega, th[None, :], phi)
+        tau = self._tau(omega[..., None], th[None, :, None], phi[None, None, :])
+        return np.broadcast_to(tau, (f.size, th.size, phi.size)).copy()
+
+    def sharp_trace_wavenumbers(self, omega, azimuth=None) -> np.ndarray | None:
         """Split points for the angle quadrature, (nf, p): every layer's sharp trace
-        wavenumbers, and the receiving air's wavenumber when it is below the source's
-        (beyond that critical angle the transmitted wave is evanescent: tau has a
-        square-root edge there and is zero past it)."""
-        parts = [r for layer in self.layers
-                 if (r := layer.trace_resonances(omega)) is not None]
+        wavenumbers (direction-dependent layers at ``azimuth``, or at the azimuths that
+        bound their features), and the receiving air's wavenumber when it is below the
+        source's (beyond that critical angle the transmitted wave is evanescent: tau has
+        a square-root edge there and is zero past it)."""
+        parts = []
+        for layer in self._mounted:
+            r = (layer.trace_resonances(omega) if layer.isotropic
+                 else layer.trace_resonances(omega, azimuth))
+            if r is not None:
+                parts.append(r)
         if self.receiver_air.sound_speed > self.source_air.sound_speed:
             parts.append(omega / self.receiver_air.sound_speed)
         if not parts:
@@ -199,28 +328,76 @@ class Stack:
         return np.concatenate([np.broadcast_to(r, (omega.shape[0], r.shape[-1]))
                                for r in parts], axis=1)
 
+    def _radiation(self, omega, theta_max):
+        """The bay's radiation table over the trace wavenumbers up to ``theta_max``."""
+        if self.panel is None:
+            return None
+        k1 = omega[:, 0] / self.source_air.sound_speed
+        return self.panel.radiation_table(omega[:, 0] / self.receiver_air.sound_speed,
+                                          k1 * np.sin(theta_max))
+
+    def _azimuth_paris(self, value, omega, theta_max, rtol):
+        """``(2/pi) int_0^(pi/2)`` of the Paris average of ``value(rows, om, theta,
+        azimuth)`` at each azimuth: adaptive in azimuth and, at each azimuth, in angle
+        (split at that azimuth's own sharp trace wavenumbers)."""
+        k1 = omega[:, 0] / self.source_air.sound_speed
+
+        def at_azimuths(rows, phi):
+            n, m = phi.shape
+            fi = np.repeat(rows, m)
+            az = phi.reshape(-1, 1)
+            om = omega[fi]
+            sharp = self.sharp_trace_wavenumbers(om, az)
+            out = paris_average(lambda r, th: value(fi[r], om[r], th, az[r]), k1[fi], sharp,
+                                theta_max, rtol)
+            return out.reshape(n, m)
+
+        return azimuth_average(at_azimuths, omega.shape[0], rtol)
+
     def average_transmission(self, f_hz, incidence: str = "field",
                              theta_max_deg: float | None = None, rtol: float = 3e-3):
         """Incidence-averaged transmission coefficient, shape (nf,).
 
         ``normal`` evaluates theta = 0; ``field`` (default limit 78 deg) and ``diffuse``
         (90 deg) apply Paris' formula with the adaptive quadrature of
-        :func:`noisebudget.incidence.paris_average` to relative accuracy ``rtol``.
+        :func:`noisebudget.incidence.paris_average` to relative accuracy ``rtol``, over
+        the azimuth too when the stack is not :attr:`isotropic`. With a :attr:`panel`,
+        the radiated side is windowed to the bay (normal incidence too).
         """
         if incidence not in INCIDENCE:
             raise ValueError(f"incidence must be one of {INCIDENCE}, got {incidence!r}")
-        f = np.atleast_1d(np.asarray(f_hz, dtype=float))
+        f, _ = self._grid(f_hz, [0.0])
+        omega = 2 * np.pi * f[:, None]
         if incidence == "normal":
-            return self.transmission_coefficient(f, [0.0])[:, 0]
+            if self.panel is None:
+                return self.transmission_coefficient(f, [0.0])[:, 0]
+            k2 = omega / self.receiver_air.sound_speed
+            return self._tau(omega, np.zeros((1, 1)), 0.0,
+                             lambda kt: self.panel.radiation_efficiency(k2, kt))[:, 0]
         if theta_max_deg is None:
             theta_max_deg = default_theta_max_deg(incidence)
         if not 0.0 < theta_max_deg <= 90.0:
             raise ValueError(f"theta_max_deg must lie in (0, 90], got {theta_max_deg}")
-        omega = 2 * np.pi * f[:, None]
+        theta_max = np.radians(theta_max_deg)
         k0 = omega[:, 0] / self.source_air.sound_speed
-        return paris_average(lambda rows, theta: self._tau(omega[rows], theta), k0,
-                             self.sharp_trace_wavenumbers(omega), np.radians(theta_max_deg),
-                             rtol)
+        table = self._radiation(omega, theta_max)
+
+        def bay(rows):
+            return None if table is None else (lambda kt: table(rows, kt))
+
+        if self.isotropic:
+            def tau_fn(rows, theta):
+                return self._tau(omega[rows], theta, radiation=bay(rows))
+            return paris_average(tau_fn, k0, self.sharp_trace_wavenumbers(omega), theta_max,
+                                 rtol)
+        sheet = self._azimuth_sheet()
+        if sheet is not None:
+            def mean_fn(rows, theta):
+                return self._tau_azimuth_mean(omega[rows], theta, sheet, bay(rows))
+            return paris_average(mean_fn, k0, self.sharp_trace_wavenumbers(omega),
+                                 theta_max, rtol)
+        return self._azimuth_paris(lambda rows, om, th, az: self._tau(om, th, az, bay(rows)),
+                                   omega, theta_max, rtol)
 
     def transmission_loss(self, f_hz, incidence: str = "field",
                           theta_max_deg: float | None = None, rtol: float = 3e-3):
@@ -243,53 +420,60 @@ class Stack:
                                                                3 * rtol), bands, rtol)
         return -10 * np.log10(np.maximum(tau, 10 ** (-TL_CAP_DB / 10)))
 
-    def _surface(self, omega, theta, backing):
+    def _surface(self, omega, theta, backing, azimuth=None):
         """Normal surface impedance for omega (nf, 1) and angles theta (nf or 1, nth)."""
         if backing not in ("rigid", "receiver"):
             raise ValueError("backing must be 'rigid' or 'receiver'")
-        (a, b, c, d, _), kz2 = self._matrices(omega, theta)
+        (a, b, c, d, _), kz2 = self._matrices(omega, theta, azimuth)
         if backing == "rigid":
             return a / c
         with np.errstate(divide="ignore", invalid="ignore"):
             z2 = omega * self.receiver_air.density / kz2
             return (a * z2 + b) / (c * z2 + d)
 
-    def _alpha(self, omega, theta, backing):
-        zs = self._surface(omega, theta, backing) * np.cos(theta)
+    def _alpha(self, omega, theta, backing, azimuth=None):
+        zs = self._surface(omega, theta, backing, azimuth) * np.cos(theta)
         z0 = self.source_air.impedance
         return 1 - np.abs((zs - z0) / (zs + z0)) ** 2
 
-    def surface_impedance(self, f_hz, theta_rad=0.0, backing: str = "rigid") -> np.ndarray:
+    def surface_impedance(self, f_hz, theta_rad=0.0, backing: str = "rigid",
+                          azimuth_rad: float = 0.0) -> np.ndarray:
         """Normal surface impedance ``Zs = p1 / v1`` seen from the source side, (nf, nth).
 
         ``backing="rigid"`` closes the last layer with a rigid wall (``v2 = 0``, so
         ``Zs = T11 / T21``); ``"receiver"`` with the receiving half-space (``p2 = Z2 v2``,
-        ``Zs = (T11 Z2 + T12) / (T21 Z2 + T22)``).
+        ``Zs = (T11 Z2 + T12) / (T21 Z2 + T22)``). ``azimuth_rad`` (scalar) is the trace
+        wave's azimuth for direction-dependent layers.
         """
-        f = np.atleast_1d(np.asarray(f_hz, dtype=float))
-        th = np.atleast_1d(np.asarray(theta_rad, dtype=float))[None, :]
-        return self._surface(2 * np.pi * f[:, None], th, backing)
+        f, th = self._grid(f_hz, theta_rad)
+        return self._surface(2 * np.pi * f[:, None], th[None, :], backing, float(azimuth_rad))
 
-    def absorption_coefficient(self, f_hz, theta_rad=0.0, backing: str = "rigid"):
+    def absorption_coefficient(self, f_hz, theta_rad=0.0, backing: str = "rigid",
+                               azimuth_rad: float = 0.0):
         """Absorption ``1 - |(Zs cos(theta) - Z0) / (Zs cos(theta) + Z0)|^2``, (nf, nth).
 
         With ``backing="receiver"`` the energy transmitted through counts as absorbed, as
         it does for the room on the source side.
         """
-        f = np.atleast_1d(np.asarray(f_hz, dtype=float))
-        th = np.atleast_1d(np.asarray(theta_rad, dtype=float))[None, :]
-        return self._alpha(2 * np.pi * f[:, None], th, backing)
+        f, th = self._grid(f_hz, theta_rad)
+        return self._alpha(2 * np.pi * f[:, None], th[None, :], backing, float(azimuth_rad))
 
     def random_incidence_absorption(self, f_hz, backing: str = "receiver",
                                     rtol: float = 3e-3) -> np.ndarray:
         """Paris-averaged absorption over 0-90 deg, shape (nf,).
 
         ``alpha_rand = 2 int alpha(theta) sin(theta) cos(theta) dtheta`` (Kuttruff, Room
-        Acoustics), with the adaptive quadrature of the transmission loss.
+        Acoustics), with the adaptive quadrature of the transmission loss (and over the
+        azimuth when the stack is not :attr:`isotropic`). The bay correction is not
+        applied to absorption.
         """
-        f = np.atleast_1d(np.asarray(f_hz, dtype=float))
+        f, _ = self._grid(f_hz, [0.0])
         omega = 2 * np.pi * f[:, None]
         k0 = omega[:, 0] / self.source_air.sound_speed
-        out = paris_average(lambda rows, theta: self._alpha(omega[rows], theta, backing), k0,
-                            self.sharp_trace_wavenumbers(omega), np.pi / 2, rtol)
+        if self.isotropic:
+            out = paris_average(lambda rows, theta: self._alpha(omega[rows], theta, backing),
+                                k0, self.sharp_trace_wavenumbers(omega), np.pi / 2, rtol)
+        else:
+            out = self._azimuth_paris(lambda rows, om, th, az: self._alpha(om, th, backing, az),
+                                      omega, np.pi / 2, rtol)
         return np.clip(out, 0.0, 1.0)

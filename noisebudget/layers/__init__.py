@@ -2,12 +2,13 @@
 
 from .base import Field, FluidElement, Layer, LayerValueError, SheetElement
 from .fluid import AirGap
-from .panels import Plate, Septum
+from .panels import Plate, Sandwich, Septum
 from .porous import Porous
 from .resonators import Cell, Tile
 from .screens import Screen
 
-LAYER_TYPES = {cls.type_name: cls for cls in (AirGap, Porous, Septum, Plate, Screen, Tile)}
+LAYER_TYPES = {cls.type_name: cls
+               for cls in (AirGap, Porous, Septum, Plate, Sandwich, Screen, Tile)}
 
 __all__ = ["LAYER_TYPES", "AirGap", "Cell", "Field", "FluidElement", "Layer", "LayerValueError",
-           "Plate", "Porous", "Screen", "Septum", "SheetElement", "Tile"]
+           "Plate", "Porous", "Sandwich", "Screen", "Septum", "SheetElement", "Tile"]
