@@ -175,7 +175,8 @@ def paris_average(tau_fn, k0, sharp_kt, theta_max: float, rtol: float = 3e-3,
     k0 : ndarray (nf,)
         Source-side wavenumbers.
     sharp_kt : ndarray (nf, p) or None
-        Trace wavenumbers of known sharp features (plate coincidence); NaN where absent.
+        Trace wavenumbers of known sharp features (plate coincidence); NaN where absent
+        (frequencies with the same features present are integrated together).
     theta_max : float
         Limit angle in rad.
     rtol : float
@@ -190,6 +191,19 @@ def paris_average(tau_fn, k0, sharp_kt, theta_max: float, rtol: float = 3e-3,
     """
     k0 = np.asarray(k0, dtype=float)
     umax = np.sin(theta_max) ** 2
+    if sharp_kt is not None and np.isnan(sharp_kt).any():
+        # frequencies lacking some features: integrate each group of frequencies with the
+        # same features present on its own (a loop over groups), so that absent features
+        # cost no panels
+        present = ~np.isnan(sharp_kt)
+        groups, which = np.unique(present, axis=0, return_inverse=True)
+        out = np.empty(k0.shape[0])
+        for g, keep in enumerate(groups):
+            rows = np.flatnonzero(which.ravel() == g)
+            out[rows] = paris_average(lambda r, th, rows=rows: tau_fn(rows[r], th), k0[rows],
+                                      sharp_kt[np.ix_(rows, keep)], theta_max, rtol,
+                                      max_passes, per_pass)
+        return out
     lo, hi = _initial_panels(k0, sharp_kt, umax)
 
     def integrand(rows, u):
@@ -234,18 +248,57 @@ def azimuth_average(fn, nf: int, rtol: float = 3e-3, panels: int = 2,
 def _arcsine_mean_pole(r):
     """``(1 / pi) int_0^1 dx / (sqrt(x (1 - x)) (x - r))`` for complex r off [0, 1].
 
-    Equals ``-1 / (sqrt(r) sqrt(r - 1))`` with principal square roots, whose product has
-    its branch cut on [0, 1] (Gradshteyn & Ryzhik 3.121 by analytic continuation).
+    Equals ``-1 / w`` with ``w = sqrt(r) sqrt(r - 1)`` (principal roots; the product has
+    its branch cut on [0, 1]; Gradshteyn & Ryzhik 3.121 continued analytically). ``w`` is
+    formed as ``+-sqrt(r (r - 1))`` with the sign that makes ``w / (r - 1/2)`` (a principal
+    root of ``1 - 1 / (4 (r - 1/2)^2)``) have a positive real part: one complex root.
     """
-    return -1.0 / (np.sqrt(r) * np.sqrt(r - 1.0))
+    w = np.sqrt(r * (r - 1.0))
+    m = r - 0.5
+    np.negative(w, out=w, where=w.real * m.real + w.imag * m.imag < 0)
+    return -1.0 / w
 
 
-def _off_axis(r):
-    """Move roots that sit on the real axis (no loss at all) off it by a relative 1e-12,
-    so that a real root outside [0, 1] stays a removable 0/0 and one inside gives a large
-    finite peak."""
-    tiny = 1e-12 * (1.0 + np.abs(r))
-    return np.where(np.abs(r.imag) < tiny, r.real + 1j * tiny, r)
+def _abs2(z):
+    return z.real * z.real + z.imag * z.imag
+
+
+def _separate(r1, r2):
+    """Roots nearer each other than 1e-6 of their distance to [0, 1] moved apart to that
+    distance (the pair's sum varies on that scale: the shift's error is ~1e-12 of the
+    result, the cancellation left ~1e-10), and roots on the real axis (no loss anywhere)
+    moved off it by a relative 1e-12."""
+    mid, gap = (r1 + r2) / 2, (r1 - r2) / 2
+    least = np.maximum(1e-6 * np.abs(mid - np.clip(mid.real, 0.0, 1.0)),
+                       1e-14 * (1.0 + np.abs(mid)))
+    size = np.abs(gap)
+    unit = np.where(size > 0, gap / np.where(size > 0, size, 1.0), 1.0)
+    gap = np.where(size < least, unit * least, gap)
+    r1, r2 = mid + gap, mid - gap
+    out = []
+    for r in (r1, r2):
+        tiny = 1e-12 * (1.0 + np.abs(r))
+        out.append(np.where(np.abs(r.imag) < tiny, r.real + 1j * tiny, r))
+    return out
+
+
+def _mean_quadratic(p0, p1, p2):
+    """The mean for ``p2 != 0`` over the two roots of p (see the caller)."""
+    sq = np.sqrt(p1 * p1 - 4.0 * p0 * p2)
+    np.negative(sq, out=sq, where=p1.real * sq.real + p1.imag * sq.imag < 0)
+    q = -0.5 * (p1 + sq)
+    q[q == 0] = 1e-300
+    r1, r2 = q / p2, p0 / q
+    e = r1 - r2
+    rough = 1e-12 * (1.0 + _abs2(r1) + _abs2(r2))
+    odd = (_abs2(e) < rough) | (r1.imag**2 < 1e-24 * rough) | (r2.imag**2 < 1e-24 * rough)
+    if odd.any():  # rare: (nearly) double roots, or roots on the real axis
+        r1[odd], r2[odd] = _separate(r1[odd], r2[odd])
+        e = r1 - r2
+    f = r1 - r2.conj()
+    mean = ((_arcsine_mean_pole(r1) / (e * f)).imag / r1.imag
+            + (_arcsine_mean_pole(r2) / (e * f.conj())).imag / r2.imag)
+    return mean / _abs2(p2)
 
 
 def azimuth_mean_inverse_square(p0, p1, p2) -> np.ndarray:
@@ -266,46 +319,33 @@ def azimuth_mean_inverse_square(p0, p1, p2) -> np.ndarray:
     With ``x = cos^2 phi`` the mean is ``(1 / pi) int_0^1 dx / (sqrt(x (1 - x)) |p(x)|^2)``.
     ``|p|^2 = |p2|^2 (x - r1)(x - r2)(x - conj r1)(x - conj r2)`` splits into partial
     fractions over its four roots, and each ``1 / (x - r)`` has the arcsine-weighted mean
-    ``J(r) = -1 / (sqrt(r) sqrt(r - 1))`` (principal roots; r off [0, 1]). The two
-    conjugate terms are complex conjugates, so the mean is
-    ``2 Re sum_k J(r_k) / (|p2|^2 prod_(j != k) (r_k - rho_j))``. Coincident roots are
-    moved apart by 1e-6 of their distance to [0, 1] (the error is second order in that
-    shift); roots on
+    ``J(r) = -1 / (sqrt(r) sqrt(r - 1))`` (principal roots; r off [0, 1]). The conjugate
+    roots' terms are the conjugates of the others', which leaves
+    ``[Im(J(r1) / (e f)) / Im r1 + Im(J(r2) / (e conj f)) / Im r2] / |p2|^2`` with
+    ``e = r1 - r2`` and ``f = r1 - conj r2``. Nearly coincident roots are moved apart by
+    1e-6 of their distance to [0, 1] (the error is second order in that shift); roots on
     the real axis (no loss anywhere) are moved off it by a relative 1e-12. The degree
-    drops where ``|p2|`` (then ``|p1|``) is below 1e-13 of the other coefficients.
+    drops where ``|p2|`` (then ``|p1|``) is below 1e-13 of the other coefficients:
+    ``Im J(r) / (|p1|^2 Im r)`` for a line, ``1 / |p0|^2`` for a constant.
     """
     p0, p1, p2 = np.broadcast_arrays(np.asarray(p0, complex), np.asarray(p1, complex),
                                      np.asarray(p2, complex))
-    out = np.empty(p0.shape)
-    scale = np.maximum(np.abs(p0), np.abs(p1))
-    quad = np.abs(p2) > 1e-13 * scale
-    lin = ~quad & (np.abs(p1) > 1e-13 * np.abs(p0))
-    const = ~quad & ~lin
+    shape = p0.shape
+    p0, p1, p2 = p0.ravel(), p1.ravel(), p2.ravel()
+    scale = np.maximum(_abs2(p0), _abs2(p1))
+    quad = _abs2(p2) > 1e-26 * scale
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        out[const] = 1.0 / np.abs(p0[const]) ** 2
+        if quad.all():
+            return _mean_quadratic(p0, p1, p2).reshape(shape)
+        out = np.empty(p0.shape)
+        out[quad] = _mean_quadratic(p0[quad], p1[quad], p2[quad])
+        lin = ~quad & (_abs2(p1) > 1e-26 * _abs2(p0))
+        const = ~quad & ~lin
+        out[const] = 1.0 / _abs2(p0[const])
         if lin.any():
-            a0, a1 = p0[lin], p1[lin]
-            r = _off_axis(-a0 / a1)
-            out[lin] = _arcsine_mean_pole(r).imag / (np.abs(a1) ** 2 * r.imag)
-        if quad.any():
-            a0, a1, a2 = p0[quad], p1[quad], p2[quad]
-            sq = np.sqrt(a1 * a1 - 4 * a0 * a2)
-            sq = np.where((a1.conj() * sq).real >= 0, sq, -sq)
-            q = -(a1 + sq) / 2
-            q = np.where(q == 0, 1e-300, q)
-            r1, r2 = q / a2, a0 / q
-            mid, gap = (r1 + r2) / 2, (r1 - r2) / 2
-            # the pair's sum varies on the scale of its distance to [0, 1]: a separation
-            # of 1e-6 of that keeps the shift error ~1e-12 and the cancellation ~1e-10
-            least = np.maximum(1e-6 * np.abs(mid - np.clip(mid.real, 0.0, 1.0)),
-                               1e-14 * (1.0 + np.abs(mid)))
-            close = np.abs(gap) < least
-            gap = np.where(close, np.where(gap == 0, 1.0, gap / np.where(gap == 0, 1, np.abs(
-                gap))) * least, gap)
-            r1, r2 = _off_axis(mid + gap), _off_axis(mid - gap)
-            total = 0.0
-            for ra, rb in ((r1, r2), (r2, r1)):  # the two roots of p
-                den = (a2 * (ra - rb)) * (a2.conj() * (ra - rb.conj())) * (2j * ra.imag)
-                total = total + _arcsine_mean_pole(ra) / den
-            out[quad] = 2 * total.real
-    return out
+            a1 = p1[lin]
+            r = -p0[lin] / a1
+            tiny = 1e-12 * (1.0 + np.abs(r))
+            r = np.where(np.abs(r.imag) < tiny, r.real + 1j * tiny, r)
+            out[lin] = _arcsine_mean_pole(r).imag / (_abs2(a1) * r.imag)
+    return out.reshape(shape)

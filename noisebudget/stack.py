@@ -219,13 +219,12 @@ class Stack:
         elements = self._elements(self._mounted, omega, kt, azimuth)
         return cascade(elements, omega, kt), self._receiver_kz(omega, theta)
 
-    def _radiated(self, omega, theta, y2, radiation):
+    def _radiated(self, kt, y2, radiation):
         """The receiving side's radiated share: ``Re Y2`` for the infinite stack,
         ``rho2 c2 |Y2|^2 sigma`` for a bay (``radiation(kt)`` gives sigma)."""
         if radiation is None:
             return y2.real
-        kt = omega / self.source_air.sound_speed * np.sin(theta)
-        return self.receiver_air.impedance * np.abs(y2) ** 2 * radiation(kt)
+        return (self.receiver_air.impedance * (y2.real**2 + y2.imag**2)) * radiation(kt)
 
     def _tau(self, omega, theta, azimuth=None, radiation=None):
         """tau for omega (nf, 1) and source-side angles theta (nf, nth) or (1, nth), at
@@ -234,8 +233,9 @@ class Stack:
         y1 = np.cos(theta) / self.source_air.impedance
         y2 = kz2 / (omega * self.receiver_air.density)
         den = a * y1 + b * y1 * y2 + c + d * y2
+        kt = None if radiation is None else omega / self.source_air.sound_speed * np.sin(theta)
         with np.errstate(under="ignore"):
-            return (4 * y1 * self._radiated(omega, theta, y2, radiation) / np.abs(den) ** 2
+            return (4 * y1 * self._radiated(kt, y2, radiation) / np.abs(den) ** 2
                     * np.exp(-2 * log_scale))
 
     def _azimuth_sheet(self) -> int | None:
@@ -254,21 +254,27 @@ class Stack:
         """
         kt = omega / self.source_air.sound_speed * np.sin(theta)
         layer = self._mounted[sheet]
-        la, lb, lc, ld, sl = cascade(self._elements(self._mounted[:sheet], omega, kt, None),
-                                     omega, kt)
-        ra, rb, rc, rd, sr = cascade(self._elements(self._mounted[sheet + 1:], omega, kt,
-                                                    None), omega, kt)
         y1 = np.cos(theta) / self.source_air.impedance
         y2 = self._receiver_kz(omega, theta) / (omega * self.receiver_air.density)
-        a, b = la * ra + lb * rc, la * rb + lb * rd
-        c, d = lc * ra + ld * rc, lc * rb + ld * rd
-        alpha = a * y1 + b * y1 * y2 + c + d * y2
-        beta = (la * y1 + lc) * (rc + rd * y2)
+        ra, rb, rc, rd, sr = cascade(self._elements(self._mounted[sheet + 1:], omega, kt,
+                                                    None), omega, kt)
+        back = rc + rd * y2
+        if sheet == 0:  # the skin faces the source: nothing in front of it
+            alpha = (ra + rb * y2) * y1 + back
+            beta = y1 * back
+            scale = sr
+        else:
+            la, lb, lc, ld, sl = cascade(self._elements(self._mounted[:sheet], omega, kt,
+                                                        None), omega, kt)
+            front = ra + rb * y2
+            alpha = (la * y1 + lc) * front + (lb * y1 + ld) * back
+            beta = (la * y1 + lc) * back
+            scale = sl + sr
         z0, z1, z2 = layer.azimuth_polynomial(omega, kt, self.cavity_air)
         mean = azimuth_mean_inverse_square(alpha + beta * z0, beta * z1, beta * z2)
         with np.errstate(under="ignore"):
-            tau = (4 * y1 * self._radiated(omega, theta, y2, radiation) * mean
-                   * np.exp(-2 * (sl + sr)))
+            tau = (4 * y1 * self._radiated(kt, y2, radiation) * mean
+                   * np.exp(-2 * scale))
         return np.minimum(tau, 1.0)
 
     @staticmethod

@@ -244,19 +244,22 @@ class Plate(Layer):
         loss = 1.0 + 1j * self.loss_factor
         da, dh = self.stiffnesses
         na, nh = self.tensions
+        inv = 1.0 / (1j * omega)
         kt2 = kt * kt
         kt4 = kt2 * kt2
         root_a, root_h = np.sqrt(da), np.sqrt(dh)
-        jw = 1j * omega
-        z0 = jw * self.surface_density + (loss * dh * kt4 + nh * kt2) / jw
-        z1 = (loss * 2 * root_h * (root_a - root_h) * kt4 + (na - nh) * kt2) / jw
-        z2 = loss * (root_a - root_h) ** 2 * kt4 / jw
+        z0 = (loss * dh * kt4 + nh * kt2) * inv + self.surface_density / inv
+        z1 = (loss * 2 * root_h * (root_a - root_h) * kt4 + (na - nh) * kt2) * inv
+        stiff = loss * (root_a - root_h) ** 2 * kt4
         if np.isfinite(self.curvature_radius):
-            donnell = self.youngs_modulus * self.plate_thickness / self.curvature_radius**2
+            donnell = loss * self.youngs_modulus * self.plate_thickness / self.curvature_radius**2
             normal = kt == 0
-            z0 = z0 + np.where(normal, loss * self._breathing_stiffness() / jw, 0.0)
-            z2 = z2 + np.where(normal, 0.0, loss * donnell / jw)
-        return z0, z1, z2
+            if normal.any():  # normal incidence: the breathing mode, whatever the azimuth
+                z0 = z0 + np.where(normal, loss * self._breathing_stiffness() * inv, 0.0)
+                stiff = stiff + np.where(normal, 0.0, donnell)
+            else:
+                stiff = stiff + donnell
+        return z0, z1, stiff * inv
 
     def element(self, omega, kt, air, azimuth=None):
         if self.isotropic:
@@ -275,7 +278,9 @@ class Plate(Layer):
 
         Solves ``D(phi) kt^4 + N(phi) kt^2 + K(phi) = m omega^2`` for kt; NaN where it has
         no root (a curved skin below its curvature-controlled range). Without
-        ``azimuth``, direction-dependent plates give the roots at 0, pi/4 and pi/2.
+        ``azimuth``, direction-dependent plates give the roots along the axial and the
+        hoop direction, where by symmetry the root's azimuth dependence is stationary
+        (the azimuth-averaged tau has its sharpest features there).
         """
         omega = np.asarray(omega, dtype=float)
         if self.isotropic:
@@ -284,7 +289,7 @@ class Plate(Layer):
                 return np.sqrt(omega) * (self.surface_density / self.bending_stiffness) ** 0.25
             azimuth = 0.0
         if azimuth is None:
-            azimuth = np.array([0.0, np.pi / 4, np.pi / 2])
+            azimuth = np.array([0.0, np.pi / 2])
         x = np.cos(azimuth) ** 2
         da, dh = self.stiffnesses
         na, nh = self.tensions
