@@ -171,7 +171,8 @@ def parse_stack(data: dict, file: str = "", where: str = "", catalog=None) -> St
     catalog = catalog or load_catalog()
     errors: list[InputError] = []
     prefix = f"{where}." if where else ""
-    allowed = ("source_air", "receiver_air", "cavity_air", "layer", "title", "notes")
+    allowed = ("source_air", "receiver_air", "cavity_air", "layer", "panel", "title",
+               "notes")
     for key in data:
         if key not in allowed:
             errors.append(InputError(file, prefix + key,
@@ -194,9 +195,27 @@ def parse_stack(data: dict, file: str = "", where: str = "", catalog=None) -> St
         layer, label = parse_layer(table, file, f"{prefix}layer[{i + 1}]", catalog, errors)
         layers.append(layer)
         labels.append(label)
+    panel = _parse_panel(data.get("panel"), file, prefix + "panel", errors)
     if errors:
         raise InputErrors(errors)
-    return Stack(tuple(layers), src, rcv, cav, tuple(labels))
+    return Stack(tuple(layers), src, rcv, cav, tuple(labels), panel)
+
+
+def _parse_panel(table, file: str, where: str, errors: list):
+    """An optional ``[panel]`` table (``width``, ``height``): the bay the stack fills."""
+    from .finite_size import Panel
+    from .layers.base import Field
+
+    if table is None:
+        return None
+    if not isinstance(table, dict):
+        errors.append(InputError(file, where, "expected a table with width and height"))
+        return None
+    schema = {"width": Field("length", required=True), "height": Field("length",
+                                                                       required=True)}
+    before = len(errors)
+    v = parse_fields(table, schema, file, where, errors)
+    return Panel(v["width"], v["height"]) if len(errors) == before else None
 
 
 def load_stack(path) -> Stack:

@@ -68,6 +68,20 @@ def test_panel_keys_parse(tmp_path):
     assert nb.load_stack(write(tmp_path, text)).layers[0].in_plane_tension == (1e3, 1e3)
 
 
+def test_panel_table_sets_the_bay(tmp_path):
+    s = nb.load_stack(write(tmp_path, SIDEWALL + '[panel]\nwidth = "0.5 m"\nheight = "200 mm"\n'))
+    assert s.panel == nb.Panel(0.5, 0.2)
+    assert nb.load_stack(write(tmp_path, SIDEWALL)).panel is None
+    for body, key, words in [('width = "0.5 m"', "panel.height", "missing"),
+                             ('width = "-0.5 m"\nheight = "0.2 m"', "panel.width", "> 0"),
+                             ('width = "0.5 m"\nheight = "0.2 m"\ndepth = "1 m"', "panel.depth",
+                              "unknown key")]:
+        with pytest.raises(nb.InputErrors) as info:
+            nb.load_stack(write(tmp_path, SIDEWALL + f"[panel]\n{body}\n"))
+        line = info.value.lines()[0]
+        assert f"{key}: " in line and words in line
+
+
 def test_panel_stack_file_runs(tmp_path):
     path = write(tmp_path, SIDEWALL)
     assert main(["tl", str(path), "--frequencies", "100,1000", "--format", "json"]) == 0
