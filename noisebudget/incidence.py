@@ -33,7 +33,8 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = ["INCIDENCE", "GK15", "adaptive_gauss_kronrod", "azimuth_average",
-           "azimuth_mean_inverse_square", "default_theta_max_deg", "paris_average"]
+           "azimuth_mean_inverse", "azimuth_mean_inverse_square", "azimuth_mean_ratio_square",
+           "default_theta_max_deg", "paris_average"]
 
 INCIDENCE = ("normal", "field", "diffuse")
 
@@ -349,3 +350,99 @@ def azimuth_mean_inverse_square(p0, p1, p2) -> np.ndarray:
             r = np.where(np.abs(r.imag) < tiny, r.real + 1j * tiny, r)
             out[lin] = _arcsine_mean_pole(r).imag / (_abs2(a1) * r.imag)
     return out.reshape(shape)
+
+
+def azimuth_mean_inverse(p0, p1, p2) -> np.ndarray:
+    """Closed-form azimuth mean ``(2 / pi) int_0^(pi/2) dphi / p(cos^2 phi)`` (complex).
+
+    Parameters
+    ----------
+    p0, p1, p2 : complex array_like (broadcast together)
+        Coefficients of ``p(x) = p0 + p1 x + p2 x^2``, ``x = cos^2 phi``.
+
+    Returns
+    -------
+    complex ndarray
+
+    Notes
+    -----
+    ``1 / p = [1 / (x - r1) - 1 / (x - r2)] / (p2 (r1 - r2))``, so the mean is
+    ``(J(r1) - J(r2)) / (p2 (r1 - r2))`` with the arcsine-weighted pole mean ``J`` of
+    :func:`azimuth_mean_inverse_square`; ``J(r) / p1`` for a line, ``1 / p0`` for a
+    constant. Nearly coincident or real roots are moved as there.
+    """
+    p0, p1, p2 = np.broadcast_arrays(np.asarray(p0, complex), np.asarray(p1, complex),
+                                     np.asarray(p2, complex))
+    shape = p0.shape
+    p0, p1, p2 = p0.ravel(), p1.ravel(), p2.ravel()
+    quad = _abs2(p2) > 1e-26 * np.maximum(_abs2(p0), _abs2(p1))
+    lin = ~quad & (_abs2(p1) > 1e-26 * _abs2(p0))
+    const = ~quad & ~lin
+    out = np.empty(p0.shape, complex)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        out[const] = 1.0 / p0[const]
+        if lin.any():
+            r = -p0[lin] / p1[lin]
+            tiny = 1e-12 * (1.0 + np.abs(r))
+            r = np.where(np.abs(r.imag) < tiny, r.real + 1j * tiny, r)
+            out[lin] = _arcsine_mean_pole(r) / p1[lin]
+        if quad.any():
+            a0, a1, a2 = p0[quad], p1[quad], p2[quad]
+            sq = np.sqrt(a1 * a1 - 4.0 * a0 * a2)
+            np.negative(sq, out=sq, where=a1.real * sq.real + a1.imag * sq.imag < 0)
+            q = -0.5 * (a1 + sq)
+            q[q == 0] = 1e-300
+            r1, r2 = _separate(q / a2, a0 / q)
+            out[quad] = (_arcsine_mean_pole(r1) - _arcsine_mean_pole(r2)) / (a2 * (r1 - r2))
+    return out.reshape(shape)
+
+
+# arcsine-weighted moments E[x^k] = binom(2k, k) / 4^k of x = cos^2 phi
+_MOMENTS = np.array([1.0, 1 / 2, 3 / 8, 5 / 16, 35 / 128])
+
+
+def azimuth_mean_ratio_square(num, den) -> np.ndarray:
+    """Closed-form azimuth mean of ``|n(x) / d(x)|^2`` for two quadratics in ``cos^2 phi``.
+
+    Parameters
+    ----------
+    num, den : tuple of three complex arrays
+        Coefficients ``(n0, n1, n2)`` and ``(d0, d1, d2)``; ``d`` and ``n`` share the
+        same ``x``-dependence up to constants, ``n = P + Q Z(x)``, ``d = S + T Z(x)``
+        (a Moebius function of one sheet impedance, e.g. a reflection factor).
+
+    Returns
+    -------
+    ndarray
+
+    Notes
+    -----
+    With ``n = (Q / T) d + K``, ``K = P - Q S / T`` a constant,
+    ``E|n/d|^2 = |Q/T|^2 + 2 Re(conj(Q/T) K E[1/d]) + |K|^2 E[1/|d|^2]`` (closed forms of
+    :func:`azimuth_mean_inverse` and :func:`azimuth_mean_inverse_square`). Where ``d``
+    does not depend on ``x`` the mean is ``E|n|^2 / |d0|^2`` from the arcsine moments
+    ``E[x^k] = binom(2k, k) / 4^k``.
+    """
+    n0, n1, n2 = (np.asarray(c, complex) for c in num)
+    d0, d1, d2 = (np.asarray(c, complex) for c in den)
+    n0, n1, n2, d0, d1, d2 = np.broadcast_arrays(n0, n1, n2, d0, d1, d2)
+    varying = (_abs2(d1) + _abs2(d2)) > 1e-26 * _abs2(d0)
+    out = np.empty(n0.shape)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        # ratio of the x-dependent parts: n1 = (Q/T) d1, n2 = (Q/T) d2
+        big = _abs2(d2) >= _abs2(d1)
+        ratio = np.where(big, n2 / np.where(big, d2, 1.0), n1 / np.where(big, 1.0, d1))
+        k = n0 - ratio * d0
+        v = varying
+        out[v] = (_abs2(ratio[v]) + 2 * (ratio[v].conj() * k[v]
+                                         * azimuth_mean_inverse(d0[v], d1[v], d2[v])).real
+                  + _abs2(k[v]) * azimuth_mean_inverse_square(d0[v], d1[v], d2[v]))
+        c = ~v
+        if c.any():
+            m = _MOMENTS
+            a0, a1, a2 = n0[c], n1[c], n2[c]
+            mean = (_abs2(a0) + 2 * (a0 * a1.conj()).real * m[1]
+                    + (_abs2(a1) + 2 * (a0 * a2.conj()).real) * m[2]
+                    + 2 * (a1 * a2.conj()).real * m[3] + _abs2(a2) * m[4])
+            out[c] = mean / _abs2(d0[c])
+    return out

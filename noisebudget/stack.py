@@ -43,6 +43,7 @@ from .incidence import (
     INCIDENCE,
     azimuth_average,
     azimuth_mean_inverse_square,
+    azimuth_mean_ratio_square,
     default_theta_max_deg,
     paris_average,
 )
@@ -464,6 +465,36 @@ class Stack:
         f, th = self._grid(f_hz, theta_rad)
         return self._alpha(2 * np.pi * f[:, None], th[None, :], backing, float(azimuth_rad))
 
+    def _alpha_azimuth_mean(self, omega, theta, backing, sheet: int):
+        """Azimuth-averaged absorption in closed form (one direction-dependent sheet).
+
+        The surface impedance is a Moebius function of the sheet's impedance Z:
+        ``Zs = (A + B Z) / (C + E Z)`` with ``A = L11 u + L12 w``, ``B = L11 w``,
+        ``C = L21 u + L22 w``, ``E = L21 w`` and ``(u, w)`` the state in front of the
+        layers R behind the sheet (``R (1, Y2)`` into the receiving air, ``R (1, 0)``
+        against a rigid wall); so is the reflection factor.
+        """
+        if backing not in ("rigid", "receiver"):
+            raise ValueError("backing must be 'rigid' or 'receiver'")
+        kt = omega / self.source_air.sound_speed * np.sin(theta)
+        ra, rb, rc, rd, _ = cascade(self._elements(self._mounted[sheet + 1:], omega, kt,
+                                                   None), omega, kt)
+        la, lb, lc, ld, _ = cascade(self._elements(self._mounted[:sheet], omega, kt, None),
+                                    omega, kt)
+        if backing == "receiver":
+            y2 = self._receiver_kz(omega, theta) / (omega * self.receiver_air.density)
+            u, w = ra + rb * y2, rc + rd * y2
+        else:
+            u, w = ra, rc
+        a, b, c, e = la * u + lb * w, la * w, lc * u + ld * w, lc * w
+        cos, z0 = np.cos(theta), self.source_air.impedance
+        zz = self._mounted[sheet].azimuth_polynomial(omega, kt, self.cavity_air)
+        p, q = cos * a - z0 * c, cos * b - z0 * e
+        s, t = cos * a + z0 * c, cos * b + z0 * e
+        reflected = azimuth_mean_ratio_square((p + q * zz[0], q * zz[1], q * zz[2]),
+                                              (s + t * zz[0], t * zz[1], t * zz[2]))
+        return 1 - reflected
+
     def random_incidence_absorption(self, f_hz, backing: str = "receiver",
                                     rtol: float = 3e-3) -> np.ndarray:
         """Paris-averaged absorption over 0-90 deg, shape (nf,).
@@ -476,9 +507,14 @@ class Stack:
         f, _ = self._grid(f_hz, [0.0])
         omega = 2 * np.pi * f[:, None]
         k0 = omega[:, 0] / self.source_air.sound_speed
+        sheet = self._azimuth_sheet()
         if self.isotropic:
             out = paris_average(lambda rows, theta: self._alpha(omega[rows], theta, backing),
                                 k0, self.sharp_trace_wavenumbers(omega), np.pi / 2, rtol)
+        elif sheet is not None:
+            out = paris_average(lambda rows, theta: self._alpha_azimuth_mean(
+                omega[rows], theta, backing, sheet), k0, self.sharp_trace_wavenumbers(omega),
+                np.pi / 2, rtol)
         else:
             out = self._azimuth_paris(lambda rows, om, th, az: self._alpha(om, th, backing, az),
                                       omega, np.pi / 2, rtol)

@@ -10,7 +10,11 @@ from scipy import integrate
 import noisebudget as nb
 from noisebudget.errors import ModelRangeWarning
 from noisebudget.finite_size import Panel, window_angular_integral
-from noisebudget.incidence import azimuth_mean_inverse_square
+from noisebudget.incidence import (
+    azimuth_mean_inverse,
+    azimuth_mean_inverse_square,
+    azimuth_mean_ratio_square,
+)
 from noisebudget.layers import Plate, Sandwich
 from noisebudget.media import Air
 
@@ -217,6 +221,55 @@ def test_closed_form_azimuth_mean_against_quadrature():
         ref = integrate.quad(g, 0, np.pi / 2, points=pts or None, limit=2000, epsabs=0,
                              epsrel=1e-11)[0] * 2 / np.pi
         assert azimuth_mean_inverse_square(*p) == pytest.approx(ref, rel=1e-7)
+
+
+def test_closed_form_azimuth_means_of_a_pole_and_a_ratio():
+    # (2/pi) int 1/p dphi and (2/pi) int |n/d|^2 dphi with n = P + Q Z, d = S + T Z,
+    # Z = z0 + z1 c^2 + z2 c^4, against scipy.integrate.quad
+    rng = np.random.default_rng(11)
+
+    def mean(g):
+        re = integrate.quad(lambda t: g(t).real, 0, np.pi / 2, limit=2000, epsabs=0,
+                            epsrel=1e-11)[0]
+        im = integrate.quad(lambda t: np.imag(g(t)), 0, np.pi / 2, limit=2000, epsabs=0,
+                            epsrel=1e-11)[0]
+        return (re + 1j * im) * 2 / np.pi
+
+    for _ in range(15):
+        p = rng.normal(size=3) + 1j * rng.normal(size=3)
+        ref = mean(lambda t, p=p: 1 / (p[0] + p[1] * np.cos(t) ** 2 + p[2] * np.cos(t) ** 4))
+        assert azimuth_mean_inverse(*p) == pytest.approx(ref, rel=1e-8)
+        z = rng.normal(size=3) + 1j * rng.normal(size=3)
+        pq = rng.normal(size=2) + 1j * rng.normal(size=2)
+        st = rng.normal(size=2) + 1j * rng.normal(size=2)
+
+        def zx(t, z=z):
+            return z[0] + z[1] * np.cos(t) ** 2 + z[2] * np.cos(t) ** 4
+
+        ref = mean(lambda t, zx=zx, pq=pq, st=st: abs((pq[0] + pq[1] * zx(t))
+                                                       / (st[0] + st[1] * zx(t))) ** 2).real
+        got = azimuth_mean_ratio_square((pq[0] + pq[1] * z[0], pq[1] * z[1], pq[1] * z[2]),
+                                        (st[0] + st[1] * z[0], st[1] * z[1], st[1] * z[2]))
+        assert got == pytest.approx(ref, rel=1e-8)
+    # a denominator that does not depend on the azimuth: arcsine moments
+    n = (1 + 2j, -0.5j, 0.3)
+    ref = mean(lambda t: abs(n[0] + n[1] * np.cos(t) ** 2 + n[2] * np.cos(t) ** 4) ** 2 / 4).real
+    assert azimuth_mean_ratio_square(n, (2.0, 0, 0)) == pytest.approx(ref, rel=1e-10)
+
+
+@pytest.mark.parametrize("backing", ["receiver", "rigid"])
+def test_closed_form_and_nested_absorption_agree(backing):
+    # random-incidence absorption of a direction-dependent stack (cabin side first):
+    # closed-form azimuth mean against the nested adaptive average
+    s = _directional_stack().reversed()
+    f = np.geomspace(63, 5000, 7)
+    omega = 2 * np.pi * f[:, None]
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ModelRangeWarning)
+        closed = s.random_incidence_absorption(f, backing)
+        nested = s._azimuth_paris(lambda rows, om, th, az: s._alpha(om, th, backing, az),
+                                  omega, np.pi / 2, 3e-5)
+    np.testing.assert_allclose(closed, nested, rtol=1e-3)
 
 
 @pytest.mark.parametrize("incidence", ["field", "diffuse"])
