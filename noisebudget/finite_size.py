@@ -127,8 +127,13 @@ class Panel:
 
         k, kt = np.broadcast_arrays(np.asarray(k, float), np.asarray(kt, float))
         r, w = self._radial_nodes(float(np.max(k + np.abs(kt), initial=0.0)))
-        val = (special.j0(kt[..., None] * r) * np.sin(k[..., None] * r)) @ w
-        return k / (2 * np.pi * self.area) * val
+        flat_k, flat_kt = k.ravel(), kt.ravel()
+        val = np.empty(flat_k.size)
+        step = max(1, 2**22 // r.size)   # bounded memory for large bays at high frequency
+        for i in range(0, flat_k.size, step):  # loop over memory-sized chunks
+            sl = slice(i, i + step)
+            val[sl] = (special.j0(flat_kt[sl, None] * r) * np.sin(flat_k[sl, None] * r)) @ w
+        return k / (2 * np.pi * self.area) * val.reshape(k.shape)
 
     def radiation_table(self, k, kt_max) -> RadiationTable:
         """Chebyshev tables of ``sigma(k, kt)`` on ``0 <= kt <= kt_max`` per frequency.

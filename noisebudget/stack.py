@@ -369,7 +369,9 @@ class Stack:
         (90 deg) apply Paris' formula with the adaptive quadrature of
         :func:`noisebudget.incidence.paris_average` to relative accuracy ``rtol``, over
         the azimuth too when the stack is not :attr:`isotropic`. With a :attr:`panel`,
-        the radiated side is windowed to the bay (normal incidence too).
+        the radiated side is windowed to the bay (normal incidence too); a bay's
+        radiation efficiency can exceed 1 (a baffled piston's peaks near ``k sqrt(S) = 4``),
+        so a nearly transparent stack in a bay is held at ``tau = 1``.
         """
         if incidence not in INCIDENCE:
             raise ValueError(f"incidence must be one of {INCIDENCE}, got {incidence!r}")
@@ -379,8 +381,8 @@ class Stack:
             if self.panel is None:
                 return self.transmission_coefficient(f, [0.0])[:, 0]
             k2 = omega / self.receiver_air.sound_speed
-            return self._tau(omega, np.zeros((1, 1)), 0.0,
-                             lambda kt: self.panel.radiation_efficiency(k2, kt))[:, 0]
+            return np.minimum(self._tau(omega, np.zeros((1, 1)), 0.0, lambda kt: (
+                self.panel.radiation_efficiency(k2, kt)))[:, 0], 1.0)
         if theta_max_deg is None:
             theta_max_deg = default_theta_max_deg(incidence)
         if not 0.0 < theta_max_deg <= 90.0:
@@ -395,16 +397,18 @@ class Stack:
         if self.isotropic:
             def tau_fn(rows, theta):
                 return self._tau(omega[rows], theta, radiation=bay(rows))
-            return paris_average(tau_fn, k0, self.sharp_trace_wavenumbers(omega), theta_max,
-                                 rtol)
-        sheet = self._azimuth_sheet()
-        if sheet is not None:
+            tau = paris_average(tau_fn, k0, self.sharp_trace_wavenumbers(omega), theta_max,
+                                rtol)
+        elif (sheet := self._azimuth_sheet()) is not None:
             def mean_fn(rows, theta):
                 return self._tau_azimuth_mean(omega[rows], theta, sheet, bay(rows))
-            return paris_average(mean_fn, k0, self.sharp_trace_wavenumbers(omega),
-                                 theta_max, rtol)
-        return self._azimuth_paris(lambda rows, om, th, az: self._tau(om, th, az, bay(rows)),
-                                   omega, theta_max, rtol)
+            tau = paris_average(mean_fn, k0, self.sharp_trace_wavenumbers(omega),
+                                theta_max, rtol)
+        else:
+            tau = self._azimuth_paris(lambda rows, om, th, az: self._tau(om, th, az,
+                                                                         bay(rows)),
+                                      omega, theta_max, rtol)
+        return tau if table is None else np.minimum(tau, 1.0)
 
     def transmission_loss(self, f_hz, incidence: str = "field",
                           theta_max_deg: float | None = None, rtol: float = 3e-3):

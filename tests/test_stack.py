@@ -233,11 +233,11 @@ def test_reciprocity_reversed_stack_transmits_the_same(layers):
 @settings(max_examples=20, deadline=None)
 @given(_stacks)
 def test_incidence_averages_are_passive(layers):
-    s = nb.Stack(layers, _low, _high)
     f = np.array([63.0, 1000.0, 12000.0])
-    for incidence in ("field", "diffuse"):
-        tau = s.average_transmission(f, incidence)
-        assert np.all(np.isfinite(tau)) and np.all((tau >= 0) & (tau <= 1 + 1e-9))
+    for s in (nb.Stack(layers, _low, _high), nb.Stack(layers, panel=nb.Panel(0.5, 0.2))):
+        for incidence in ("normal", "field", "diffuse"):
+            tau = s.average_transmission(f, incidence)
+            assert np.all(np.isfinite(tau)) and np.all((tau >= 0) & (tau <= 1 + 1e-9))
 
 
 @settings(max_examples=40, deadline=None)
