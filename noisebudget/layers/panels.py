@@ -203,6 +203,26 @@ class Plate(Layer):
         na, nh = self.tensions
         return da == dh and na == nh and not np.isfinite(self.curvature_radius)
 
+    def parameters(self) -> dict:
+        """Plain SI floats for tables: axis pairs split into ``_axial`` and ``_hoop``
+        entries, and curvature, tension and material constants only where they apply."""
+        out = {"surface_density": self.surface_density}
+        for name, pair in (("bending_stiffness", self.stiffnesses),
+                           ("in_plane_tension", self.in_plane_tension)):
+            if pair is None:
+                continue
+            a, h = pair
+            if a == h:
+                out[name] = a
+            else:
+                out[f"{name}_axial"], out[f"{name}_hoop"] = a, h
+        out["loss_factor"] = self.loss_factor
+        out["plate_thickness"] = self.plate_thickness
+        if np.isfinite(self.curvature_radius):
+            out.update(curvature_radius=self.curvature_radius,
+                       youngs_modulus=self.youngs_modulus, poisson_ratio=self.poisson_ratio)
+        return out
+
     def ring_frequency(self) -> float:
         """``f_r = c_L / (2 pi R)``, ``c_L = sqrt(E / (rho (1 - nu^2)))`` in Hz (inf when
         flat)."""
