@@ -185,5 +185,11 @@ def _unit(name: str) -> str:
              "viscous_length": "m", "thermal_length": "m", "bulk_density": "kg/m^3",
              "pitch": "m", "frame_areal_mass": "kg/m^2", "radius": "m",
              "membrane_thickness": "m", "membrane_density": "kg/m^3", "tension": "N/m",
-             "mass": "kg", "mass_radius": "m"}
+             "mass": "kg", "mass_radius": "m",
+             "bending_stiffness_axial": "N m", "bending_stiffness_hoop": "N m",
+             "in_plane_tension": "N/m", "in_plane_tension_axial": "N/m",
+             "in_plane_tension_hoop": "N/m", "curvature_radius": "m", "youngs_modulus": "Pa",
+             "face_thickness": "m", "face_density": "kg/m^3", "face_youngs_modulus": "Pa",
+             "core_thickness": "m", "core_density": "kg/m^3", "core_shear_modulus": "Pa",
+             "added_surface_density": "kg/m^2"}
     return units.get(name, "-")
