@@ -18,8 +18,9 @@ __version__ = "0.1.0"
 _WHERE = {  # public name -> module that defines it
     "a_weighting": "bands", "c_weighting": "bands", "octave_bands": "bands",
     "third_octave_bands": "bands", "InputError": "errors", "InputErrors": "errors",
-    "ModelRangeWarning": "errors", "AirGap": "layers", "Plate": "layers", "Porous": "layers",
-    "Screen": "layers", "Septum": "layers", "Solid": "layers", "Air": "media",
+    "ModelRangeWarning": "errors", "Panel": "finite_size", "AirGap": "layers",
+    "Plate": "layers", "Porous": "layers", "Sandwich": "layers", "Screen": "layers",
+    "Septum": "layers", "Solid": "layers", "Air": "media",
     "standard_atmosphere": "media", "ratings": "ratings", "Stack": "stack",
     "load_stack": "stackfile", "parse_stack": "stackfile", "load_study": "study",
     "parse_study": "study", "run_study": "study",
@@ -28,7 +29,8 @@ _WHERE = {  # public name -> module that defines it
 if TYPE_CHECKING:  # for editors and type checkers; nothing is imported at run time
     from .bands import a_weighting, c_weighting, octave_bands, third_octave_bands
     from .errors import InputError, InputErrors, ModelRangeWarning
-    from .layers import AirGap, Plate, Porous, Screen, Septum, Solid
+    from .finite_size import Panel
+    from .layers import AirGap, Plate, Porous, Sandwich, Screen, Septum, Solid
     from .media import Air, standard_atmosphere
     from .ratings import ratings
     from .stack import Stack
@@ -63,6 +65,7 @@ sys.modules[__name__].__class__ = _Package
 
 
 __all__ = ["a_weighting", "c_weighting", "octave_bands", "ratings", "third_octave_bands",
-           "Air", "AirGap", "InputError", "InputErrors", "ModelRangeWarning", "Plate",
-           "Porous", "Screen", "Septum", "Solid", "Stack", "__version__", "load_stack",
-           "load_study", "run_study", "parse_stack", "parse_study", "standard_atmosphere"]
+           "Air", "AirGap", "InputError", "InputErrors", "ModelRangeWarning", "Panel", "Plate",
+           "Porous", "Sandwich", "Screen", "Septum", "Solid", "Stack", "__version__",
+           "load_stack", "load_study", "run_study", "parse_stack", "parse_study",
+           "standard_atmosphere"]

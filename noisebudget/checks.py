@@ -12,7 +12,8 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = ["ArgumentError", "MAX_ANGLE_POINTS", "MAX_FREQUENCIES", "MAX_FREQUENCY_HZ",
-           "MAX_PER_OCTAVE", "MIN_FREQUENCY_HZ", "angles", "frequencies", "frequency"]
+           "MAX_PER_OCTAVE", "MIN_FREQUENCY_HZ", "angles", "azimuths", "frequencies",
+           "frequency"]
 
 MIN_FREQUENCY_HZ = 1e-3
 MAX_FREQUENCY_HZ = 1e5
@@ -77,3 +78,28 @@ def angles(theta_rad, name: str = "theta_rad", nf: int = 1) -> np.ndarray:
         raise ArgumentError(f"{name}: {nf} frequencies x {th.size} angles is more than "
                             f"{MAX_ANGLE_POINTS} values")
     return th
+
+
+def azimuths(azimuth_rad, name: str = "azimuth_rad", points: int = 1, scalar: bool = False):
+    """Azimuths of the trace wave in rad (any finite angle): a scalar gives a float, a
+    1-D array an array (refused where ``scalar``); with ``points`` frequencies x angles
+    the tau array stays below :data:`MAX_ANGLE_POINTS` values."""
+    try:
+        phi = np.asarray(azimuth_rad, dtype=float)
+    except (TypeError, ValueError):
+        raise ArgumentError(f"{name}: not a number or an array of numbers") from None
+    if phi.ndim == 0:
+        if not np.isfinite(phi):
+            raise ArgumentError(f"{name} = {float(phi):g} rad: must be a finite number")
+        return float(phi)
+    if scalar:
+        raise ArgumentError(f"{name} must be one number here, got shape {phi.shape}")
+    phi = _array(phi, name)
+    bad = ~np.isfinite(phi)
+    if bad.any():
+        i = int(np.flatnonzero(bad)[0])
+        raise ArgumentError(f"{name}[{i}] = {phi[i]:g} rad: must be a finite number")
+    if phi.size * points > MAX_ANGLE_POINTS:
+        raise ArgumentError(f"{name}: {points} frequencies x angles x {phi.size} azimuths is "
+                            f"more than {MAX_ANGLE_POINTS} values")
+    return phi

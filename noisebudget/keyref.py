@@ -128,8 +128,9 @@ def markdown() -> str:
              "one of: `type = \"...\"` with the keys of that layer type below; `use = "
              "\"group.name\"`, a catalog entry, with any of its keys overridden; or `stack = "
              "\"file.toml\"`, every layer of that stack file inserted in place (found "
-             "relative to the file that names it; its air states are ignored with a note, "
-             "since the layers take the air of the stack or study they join; a file that "
+             "relative to the file that names it; its air states and `[panel]` are ignored "
+             "with a note, since the layers take the air and bay of the stack or study they "
+             "join; a file that "
              "includes itself, directly or not, is refused). Keys of the entries:", out, seen)
     for name, cls in LAYER_TYPES.items():
         doc = (cls.__doc__ or "").strip().splitlines()[0]

@@ -30,8 +30,19 @@ plate; faces at ``-+h/2`` move in-plane with ``u -+ j kt (h/2) w``)::
 
 with ``Z`` the sheet's impedance and ``C = E h / (1 - nu^2) = 12 D / h^2`` its membrane
 stiffness (derived from the plate's resultant equations, Cremer, Heckl & Petersson,
-Structure-Borne Sound; Allard & Atalla 2009, ch. 11). Other sheets (screens, tiles)
-touch framed media through an air film.
+Structure-Borne Sound; Allard & Atalla 2009, ch. 11). Other sheets (screens, tiles,
+sandwich panels) touch framed media through an air film.
+
+A direction-dependent plate (curved, stiffened or unequally tensioned skin) passes its
+impedance at the trace wave's azimuth, ``Z(phi)``, through the same relations. Its
+in-plane motion along the trace wave keeps the flat, isotropic membrane stiffness: for a
+scalar ``D``, ``12 D / h^2`` as above; for a stiffened skin (``[D_axial, D_hoop]``) the
+skin's own ``E h / (1 - nu^2)`` where its Young's modulus is given (the stiffeners'
+membrane share neglected), else ``12 D(phi) / h^2``. The curvature term of ``Z(phi)``
+is Donnell's for a skin free in its plane; the shear of a bonded frame on the curved
+skin's membrane is neglected, which holds while the frame is soft against the skin's
+membrane stiffness (foams, damping layers; a stiff solid bonded to a curved skin makes a
+shell of its own, which this is not).
 
 Stable solve (recursive reflection matrices; Kennett, Seismic Wave Propagation in
 Stratified Media, 1983): starting from the receiving half-space (or a rigid wall), each
@@ -188,13 +199,29 @@ def _mechanical_sheet(a: Medium, b: Medium, sheet, zref):
     return np.stack(rows_a, -2), np.stack(rows_b, -2), np.stack(rows_x, -2)
 
 
-def _sheet_mechanics(layer, element: SheetElement, omega, kt):
-    """``(Z, Z_inplane, j kt h/2, sliding)`` of a plate or septum, None for other sheets."""
+def _membrane_stiffness(plate: Plate, azimuth):
+    """Complex in-plane stiffness ``C (1 + j eta)`` of a plate along the trace wave, N/m
+    (module docstring)."""
+    loss = 1 + 1j * plate.loss_factor
+    h = plate.plate_thickness
+    da, dh = plate.stiffnesses
+    if da == dh:
+        return 12 * plate.bending_stiffness * loss / h**2
+    if plate.youngs_modulus:
+        return plate.youngs_modulus * h / (1 - plate.poisson_ratio**2) * loss
+    x = np.cos(0.0 if azimuth is None else azimuth) ** 2
+    d = (np.sqrt(dh) + (np.sqrt(da) - np.sqrt(dh)) * x) ** 2
+    return 12 * d * loss / h**2
+
+
+def _sheet_mechanics(layer, element: SheetElement, omega, kt, azimuth=None):
+    """``(Z, Z_inplane, j kt h/2, sliding)`` of a plate or septum, None for other sheets;
+    ``azimuth`` is the trace wave's for direction-dependent plates."""
     zn = element.impedance
     if isinstance(layer, Plate):
         m, h = layer.surface_density, layer.plate_thickness
         if h > 0:
-            c = 12 * layer.bending_stiffness * (1 + 1j * layer.loss_factor) / h**2
+            c = _membrane_stiffness(layer, azimuth)
             return zn, 1j * omega * m + c * kt**2 / (1j * omega), 0.5j * kt * h, False
         return zn, 1j * omega * m, 0.0, True
     if isinstance(layer, Septum):
@@ -217,7 +244,7 @@ def _medium(element, omega, kt, zref) -> Medium:
     raise TypeError(f"unknown element {type(element).__name__}")
 
 
-def _chain(layers, elements, bonded, omega, kt, zref, first, last):
+def _chain(layers, elements, bonded, omega, kt, zref, first, last, azimuth=None):
     """Media (source first) and the joints between them, air films inserted where a
     contact is unbonded, where two sheets touch, and where a sheet that cannot hold a
     frame (or an unbonded one) touches a framed medium."""
@@ -262,8 +289,8 @@ def _chain(layers, elements, bonded, omega, kt, zref, first, last):
             if above.kind == "F" and medium.kind == "F":
                 joints.append(_fluid_sheet(above, medium, el.impedance, zref))
             else:
-                joints.append(_mechanical_sheet(above, medium,
-                                                _sheet_mechanics(layer, el, omega, kt), zref))
+                joints.append(_mechanical_sheet(above, medium, _sheet_mechanics(
+                    layer, el, omega, kt, azimuth), zref))
         media.append(medium)
         pending = None
     return media, joints
@@ -305,7 +332,8 @@ def _rigid_wall(medium: Medium):
     return -_solve_small(*_batch(sel @ medium.up, sel @ medium.down))
 
 
-def solve(layers, bonding, elements, omega, kt, source, kz1, receiver=None, kz2=None):
+def solve(layers, bonding, elements, omega, kt, source, kz1, receiver=None, kz2=None,
+          azimuth=None):
     """Reflection and transmission of plane waves by a stack, vectorised over omega, kt.
 
     Parameters
@@ -324,6 +352,9 @@ def solve(layers, bonding, elements, omega, kt, source, kz1, receiver=None, kz2=
     receiver : Air or None
         Receiving half-space with normal wavenumber ``kz2``; None for a rigid wall behind
         the last layer (its frame fixed to the wall).
+    azimuth : ndarray or float, optional
+        The trace wave's azimuth (broadcasting against ``kt``) for direction-dependent
+        plates bonded to a frame; their ``elements`` are already at that azimuth.
 
     Returns
     -------
@@ -335,7 +366,7 @@ def solve(layers, bonding, elements, omega, kt, source, kz1, receiver=None, kz2=
     first = half_space(source.density, kz1, omega, zref)
     last = None if receiver is None else half_space(receiver.density, kz2, omega, zref)
     media, joints = _chain(layers, elements, bonded[:len(layers)], omega, kt, zref, first,
-                           last)
+                           last, azimuth)
     if last is None:
         refl = _across(media[-1], _rigid_wall(media[-1]))
         basis = media[-1].down + media[-1].up @ refl
@@ -372,21 +403,26 @@ def solve(layers, bonding, elements, omega, kt, source, kz1, receiver=None, kz2=
     return Response(r, t, tau)
 
 
-def solve_angles(stack, omega, theta, backing="receiver") -> Response:
+def solve_angles(stack, omega, theta, backing="receiver", azimuth=None) -> Response:
     """:func:`solve` for a :class:`~noisebudget.stack.Stack` at source-side angles theta.
 
     ``kz1 = k1 cos(theta)``; the receiving air's ``kz2 = sqrt(k2^2 - kt^2)``, negative
-    imaginary where evanescent; ``backing`` is ``"receiver"`` or ``"rigid"``.
+    imaginary where evanescent; ``backing`` is ``"receiver"`` or ``"rigid"``. The stack's
+    layers as mounted; direction-dependent ones at ``azimuth`` (broadcasting).
     """
     k1 = omega / stack.source_air.sound_speed
     kt = k1 * np.sin(theta)
-    elements = [layer.element(omega, kt, stack.cavity_air) for layer in stack.layers]
+    layers = stack.mounted_layers
+    air = stack.cavity_air
+    elements = [layer.element(omega, kt, air) if layer.isotropic
+                else layer.element(omega, kt, air, azimuth) for layer in layers]
     kz1 = k1 * np.cos(theta)
     bonding = getattr(stack, "bonding", ())
     if backing == "rigid":
-        return solve(stack.layers, bonding, elements, omega, kt, stack.source_air, kz1)
+        return solve(layers, bonding, elements, omega, kt, stack.source_air, kz1,
+                     azimuth=azimuth)
     k2 = omega / stack.receiver_air.sound_speed
     arg2 = k2**2 - k1**2 + (k1 * np.cos(theta)) ** 2
     kz2 = np.where(arg2 >= 0, np.sqrt(np.abs(arg2)) + 0j, -1j * np.sqrt(np.abs(arg2)))
-    return solve(stack.layers, bonding, elements, omega, kt, stack.source_air, kz1,
-                 stack.receiver_air, kz2)
+    return solve(layers, bonding, elements, omega, kt, stack.source_air, kz1,
+                 stack.receiver_air, kz2, azimuth)

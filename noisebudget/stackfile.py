@@ -11,8 +11,12 @@ A layer entry is one of
 * ``type = "..."`` and that layer type's keys;
 * ``use = "group.name"``: a catalog entry, any of whose keys the entry may override;
 * ``stack = "file.toml"``: every layer of that stack file, inserted in place (the path is
-  relative to the file that names it; the inserted file's air states are ignored with a
-  note, since the layers take the air of the stack they join; include cycles are refused).
+  relative to the file that names it; the inserted file's air states and ``[panel]`` are
+  ignored with a note, since the layers take the air and the bay of the stack they join;
+  include cycles are refused).
+
+A top-level ``[panel]`` (``width``, ``height``) makes the stack a finite bay
+(:class:`~noisebudget.finite_size.Panel`).
 """
 
 from __future__ import annotations
@@ -23,6 +27,7 @@ from pathlib import Path
 
 from .catalog import CATALOG_META, load_catalog
 from .errors import InputError, InputNote, show
+from .finite_size import Panel
 from .layerfile import LAYER_META, LayerEntry, build_layer
 from .layers.base import Field
 from .media import Air, standard_atmosphere
@@ -107,6 +112,12 @@ STACK_FILE: dict[str, Field] = {
                         doc="air in gaps and pores; default the receiving air"),
     "layer": Field("layers", required=True, read=read_layers,
                    doc="the layers from the source side to the receiving side"),
+    "panel": Field("table", schema={"width": Field("length", required=True, doc="bay width"),
+                                    "height": Field("length", required=True,
+                                                    doc="bay height")},
+                   doc="finite bay the stack fills (between frames and stringers): the "
+                       "incidence averages window the radiated side to it; absent, the "
+                       "stack is infinite"),
 }
 _AIR_KEYS = ("source_air", "receiver_air", "cavity_air")
 
@@ -195,6 +206,9 @@ def include_stack(rel: str, where: str, reader: Reader, host: str = "stack"):
         warnings.warn(InputNote(f"{reader.file}: {where}: {rel}: its "
                                 f"{', '.join(ignored)} ignored; the layers take the air of "
                                 f"the {host} they join"), stacklevel=2)
+    if "panel" in data:
+        warnings.warn(InputNote(f"{reader.file}: {where}: {rel}: its panel ignored; the "
+                                f"layers fill the bay of the {host} they join"), stacklevel=2)
     if len(reader.problems) > before or values is INVALID:
         return INVALID
     return values["layer"]
@@ -205,8 +219,10 @@ def stack_from(values, entries, default_air: Air | None = None) -> Stack:
     src = air_from(values.get("source_air"), default_air or Air())
     rcv = air_from(values.get("receiver_air"), src)
     cav = air_from(values.get("cavity_air"), rcv)
+    panel = values.get("panel")
     return Stack(tuple(e.layer for e in entries), src, rcv, cav,
-                 tuple(e.label for e in entries), bonding_of(entries))
+                 tuple(e.label for e in entries), bonding_of(entries),
+                 panel=None if panel is None else Panel(panel["width"], panel["height"]))
 
 
 def bonding_of(entries) -> tuple:

@@ -14,7 +14,7 @@ import noisebudget
 PACKAGE = Path(noisebudget.__file__).parent
 FILE_BOUNDARY = {"units", "schema", "stackfile", "study", "catalog", "layerfile", "keyref",
                  "resources", "cli", "cli_study", "cli_tile"}
-PHYSICS = ["media", "stack", "incidence", "bands", "ratings", "budget", "tiles",
+PHYSICS = ["media", "stack", "incidence", "finite_size", "bands", "ratings", "budget", "tiles",
            *[f"layers.{m.name}" for m in pkgutil.iter_modules([str(PACKAGE / "layers")])],
            "layers"]
 

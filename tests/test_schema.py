@@ -184,7 +184,7 @@ def test_named_tables_check_their_names():
 BANDS = [500, 630, 800]
 PLANNED = {
     # layers/panels.py Plate.schema
-    "in_plane_tension": Field("tension", positive=False, shape="one_or_list", length=2,
+    "in_plane_tension": Field("tension", allow_zero=True, shape="one_or_list", length=2,
                               doc="membrane tension: one value, or [axial, hoop]"),
     "bending_stiffness": Field("bending_stiffness", shape="one_or_list", length=2,
                                doc="D, or [D_axial, D_hoop]"),
@@ -221,7 +221,7 @@ PLANNED = {
 
 def test_planned_shapes_accept_their_forms():
     v, lines = read({
-        "in_plane_tension": ["2 kN/m", "-1 kN/m"], "bending_stiffness": "250 N*m",
+        "in_plane_tension": ["2 kN/m", "0 N/m"], "bending_stiffness": "250 N*m",
         "bonding": "unbonded", "structure": True, "offset_bands_hz": [500, 630, 800],
         "exterior_offset_db": [0, -1.5, 2], "panel_width": "0.5 m",
         "leak": [{"shape": "slit", "width": "1 mm", "length": "0.4 m", "depth": "2 mm"},
@@ -230,7 +230,7 @@ def test_planned_shapes_accept_their_forms():
         "vary": [{"package": "p", "layer": 2, "key": "thickness", "values": ["5 mm", "9 mm"]}],
     }, PLANNED)
     assert not lines, lines
-    assert v["in_plane_tension"] == (2000.0, -1000.0) and v["bending_stiffness"] == 250.0
+    assert v["in_plane_tension"] == (2000.0, 0.0) and v["bending_stiffness"] == 250.0
     assert len(v["offset_bands_hz"]) == 3 and v["exterior_offset_db"] == (0.0, -1.5, 2.0)
     assert v["leak"][1] == {"shape": "hole", "diameter": 0.005, "depth": 0.002, "count": 1}
     assert v["trade"] == {"mode": "grid", "samples": 200}
@@ -242,6 +242,7 @@ def test_planned_shapes_accept_their_forms():
 @pytest.mark.parametrize("table,key,words", [
     ({"in_plane_tension": ["1 N/m"] * 3}, "t.in_plane_tension", "expected 2 values, got 3"),
     ({"in_plane_tension": [1, "1 N/m"]}, "t.in_plane_tension[1]", "bare number 1"),
+    ({"in_plane_tension": ["1 N/m", "-1 N/m"]}, "t.in_plane_tension[2]", "must be >= 0"),
     ({"bonding": "glued"}, "t.bonding", "one of bonded, unbonded"),
     ({"structure": "true"}, "t.structure", "expected true or false"),
     ({"offset_bands_hz": BANDS, "exterior_offset_db": [1, 2]}, "t.exterior_offset_db",

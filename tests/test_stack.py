@@ -190,26 +190,54 @@ _layer = st.one_of(
                                            0.022, frame, 0.6),
               st.floats(5.0, 500.0), st.floats(0.0, 2e-3), st.floats(0.005, 0.3),
               st.sampled_from(["clamped", "floating"])),
+    # curved, tensioned and stiffened skins (direction-dependent)
+    st.builds(lambda h, eta, r, na, nh, ratio: nb.Plate.from_material(
+        h, 2780, 73.1e9, 0.33, eta, curvature_radius=r, in_plane_tension=(na, nh),
+        bending_stiffness=(ratio * 73.1e9 * h**3 / 10.9, 73.1e9 * h**3 / 10.9)),
+              st.floats(0.5e-3, 3e-3), st.floats(0.0, 0.1), st.floats(0.3, 50.0),
+              st.floats(0.0, 1e5), st.floats(0.0, 1e5), st.floats(0.05, 500.0)),
+    st.builds(lambda r: nb.Plate.from_material(1.6e-3, 2780, 73.1e9, 0.33, 0.01,
+                                               curvature_radius=r),  # pressurised
+              st.floats(0.5, 5.0)),
+    st.builds(lambda tf, hc, g, eta: nb.Sandwich(tf, 1900.0, 20e9, 0.15, hc, 48.0, g, eta),
+              st.floats(0.1e-3, 2e-3), st.floats(2e-3, 50e-3), st.floats(1e5, 1e10),
+              st.floats(0.0, 0.2)),
+    st.builds(nb.AirGap, st.floats(0.0, 0.3), st.floats(0.0, 0.5)),
 )
 _stacks = st.lists(_layer, min_size=1, max_size=5)
 _f = np.array([40.0, 250.0, 1600.0, 9000.0, 20000.0])
 _th = np.radians([0.0, 35.0, 70.0, 89.0])
+_phi = np.radians([0.0, 30.0, 60.0, 90.0])
+# one temperature, two pressures: the receiving side 20 kPa above the source (a
+# pressurised skin's tension), the angles on both sides equal
+_low, _high = Air(295.15, 75262.0), Air(295.15, 95262.0)
 
 
 @settings(max_examples=60, deadline=None)
 @given(_stacks)
 def test_passive_stacks_never_gain_power(layers):
-    tau = nb.Stack(layers).transmission_coefficient(_f, _th)
-    assert np.all(np.isfinite(tau)) and np.all(tau >= 0) and np.all(tau <= 1 + 1e-9)
+    for s in (nb.Stack(layers), nb.Stack(layers, _low, _high)):
+        tau = s.transmission_coefficient(_f, _th, azimuth_rad=_phi)
+        assert np.all(np.isfinite(tau)) and np.all(tau >= 0) and np.all(tau <= 1 + 1e-9)
 
 
 @settings(max_examples=60, deadline=None)
 @given(_stacks)
 def test_reciprocity_reversed_stack_transmits_the_same(layers):
-    s = nb.Stack(layers)
-    t1 = s.transmission_coefficient(_f, _th)
-    t2 = s.reversed().transmission_coefficient(_f, _th)
-    np.testing.assert_allclose(t1, t2, rtol=1e-6, atol=1e-300)
+    for s in (nb.Stack(layers), nb.Stack(layers, _low, _high)):
+        t1 = s.transmission_coefficient(_f, _th, azimuth_rad=_phi)
+        t2 = s.reversed().transmission_coefficient(_f, _th, azimuth_rad=_phi)
+        np.testing.assert_allclose(t1, t2, rtol=1e-6, atol=1e-300)
+
+
+@settings(max_examples=20, deadline=None)
+@given(_stacks)
+def test_incidence_averages_are_passive(layers):
+    f = np.array([63.0, 1000.0, 12000.0])
+    for s in (nb.Stack(layers, _low, _high), nb.Stack(layers, panel=nb.Panel(0.5, 0.2))):
+        for incidence in ("normal", "field", "diffuse"):
+            tau = s.average_transmission(f, incidence)
+            assert np.all(np.isfinite(tau)) and np.all((tau >= 0) & (tau <= 1 + 1e-9))
 
 
 @settings(max_examples=40, deadline=None)
@@ -217,8 +245,9 @@ def test_reciprocity_reversed_stack_transmits_the_same(layers):
 def test_zero_thickness_air_gap_changes_nothing(layers, where):
     where = min(where, len(layers))
     with_gap = [*layers[:where], nb.AirGap(0.0), *layers[where:]]
-    np.testing.assert_array_equal(nb.Stack(layers).transmission_coefficient(_f, _th),
-                                  nb.Stack(with_gap).transmission_coefficient(_f, _th))
+    np.testing.assert_array_equal(
+        nb.Stack(layers).transmission_coefficient(_f, _th, azimuth_rad=_phi),
+        nb.Stack(with_gap).transmission_coefficient(_f, _th, azimuth_rad=_phi))
 
 
 @settings(max_examples=40, deadline=None)

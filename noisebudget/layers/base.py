@@ -12,6 +12,21 @@ A layer supplies the least it can:
   the matrix ``[[cos kz d, j omega rho d sinc], [j kz^2 d sinc / (omega rho), cos kz d]]``
   with ``sinc = sin(kz d) / (kz d)`` (Allard & Atalla, Propagation of Sound in Porous
   Media, 2nd ed. 2009, ch. 11).
+
+Direction. Most layers react the same to a trace wave from any direction: their
+``element(omega, kt, air)`` sees only the trace wavenumber. A layer whose response
+depends on the wave's azimuth ``phi`` (radians from the stack's axial direction; the
+hoop direction is ``phi = pi/2``) sets ``isotropic`` False and takes a fourth argument,
+``element(omega, kt, air, azimuth)``, with ``azimuth`` broadcasting against ``kt``; the
+stack passes it to such layers only, so isotropic layers neither see nor pay for it.
+Its principal axes must be the axial and hoop directions (the response even in ``phi``
+and in ``pi - phi``). Its ``trace_resonances(omega, azimuth=None)`` likewise takes an
+azimuth (without one it gives the features at the azimuths that bound them).
+
+Mounting. A layer is immutable; what depends on the stack around it is resolved by the
+stack through :meth:`Layer.pressurised`, which returns the layer as mounted where the
+receiving air's static pressure exceeds the source air's by ``delta_p`` (a curved skin
+takes its membrane tension from it).
 """
 
 from __future__ import annotations
@@ -166,17 +181,33 @@ class Layer:
         """Mass per unit area in kg/m^2."""
         return 0.0
 
+    @property
+    def isotropic(self) -> bool:
+        """False when the layer's response depends on the trace wave's azimuth."""
+        return True
+
     def element(self, omega: np.ndarray, kt: np.ndarray, air) -> SheetElement | FluidElement:
         """The layer's element at angular frequencies ``omega`` (nf, 1) and trace
-        wavenumbers ``kt`` (nf, nth), with ``air`` the air filling the stack."""
+        wavenumbers ``kt`` (nf, nth), with ``air`` the air filling the stack.
+
+        Direction-dependent layers (``isotropic`` False) take ``azimuth`` as a fourth
+        argument, broadcasting against ``kt``; their element may then carry a trailing
+        azimuth axis.
+        """
         raise NotImplementedError
 
     def trace_resonances(self, omega: np.ndarray) -> np.ndarray | None:
         """Trace wavenumbers (nf, k) where the layer's response is sharp (coincidence).
 
-        The angle quadrature places break points there. ``None`` when there are none.
+        The angle quadrature places break points there; NaN marks a feature absent at a
+        frequency. ``None`` when there are none.
         """
         return None
+
+    def pressurised(self, delta_p: float) -> Layer:
+        """The layer mounted where the receiving air is ``delta_p`` (Pa) above the source
+        air; most layers do not care and return themselves."""
+        return self
 
     def parameters(self) -> dict:
         """The layer's parameters as a plain dict (SI), for tables and reports."""

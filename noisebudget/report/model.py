@@ -203,7 +203,8 @@ _PARAMS = {
     "flow_resistivity": ("Pa·s/m²", 1.0, SIG3), "flow_resistance": ("Pa·s/m", 1.0, SIG3),
     "tension": ("N/m", 1.0, SIG3), "youngs_modulus": ("GPa", 1e-9, SIG3),
     "face_youngs_modulus": ("GPa", 1e-9, SIG3), "shear_modulus": ("MPa", 1e-6, SIG3),
-    "core_shear_modulus": ("MPa", 1e-6, SIG3),
+    "core_shear_modulus": ("MPa", 1e-6, SIG3), "in_plane_tension": ("N/m", 1.0, SIG3),
+    "added_surface_density": ("kg/m²", 1.0, SIG3), "curvature_radius": ("m", 1.0, SIG3),
 }
 _LENGTHS = ("thickness", "gap", "radius", "pitch", "length", "width", "height", "diameter",
             "depth")
@@ -211,6 +212,8 @@ _LENGTHS = ("thickness", "gap", "radius", "pitch", "length", "width", "height", 
 
 def _parameter_unit(name: str):
     base = name.rsplit(".", 1)[-1]
+    for axis in ("_axial", "_hoop"):  # a plate's axis pairs: bending_stiffness_axial, ...
+        base = base.removesuffix(axis)
     if base in _PARAMS:
         return _PARAMS[base]
     if base.endswith(_LENGTHS):
