@@ -155,10 +155,11 @@ def build_parser() -> argparse.ArgumentParser:
     c = sub.add_parser("catalog", help="list catalog entries or show one")
     c.add_argument("key", nargs="?", default=None)
     c.set_defaults(func=cmd_catalog)
-    from . import cli_study, cli_tile
+    from . import cli_study, cli_tile, cli_trade
 
     cli_tile.register(sub)
     cli_study.register(sub)
+    cli_trade.register(sub)
     return p
 
 
