@@ -20,9 +20,14 @@ def __getattr__(name):
         from . import study
 
         return getattr(study, name)
+    if name in ("run_sweep", "run_optimization", "trade"):
+        from . import trade
+
+        return trade if name == "trade" else getattr(trade, name)
     raise AttributeError(f"module 'noisebudget' has no attribute {name!r}")
 
 __all__ = ["a_weighting", "c_weighting", "octave_bands", "ratings", "third_octave_bands",
            "Air", "AirGap", "InputError", "InputErrors", "ModelRangeWarning", "Plate",
            "Porous", "Screen", "Septum", "Stack", "__version__", "load_stack", "load_study",
-           "run_study", "parse_stack", "standard_atmosphere"]
+           "run_optimization", "run_study", "run_sweep", "parse_stack",
+           "standard_atmosphere"]
