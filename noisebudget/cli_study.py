@@ -80,8 +80,11 @@ def cmd_check(args) -> int:
 
     loaded = load_study(args.study)
     inp = loaded.inputs
+    trade = loaded.trade
+    varies = (f"; {len(trade.parameters)} [[vary]] entries on {trade.package!r}, "
+              f"{trade.count} variants ({trade.mode})") if trade and trade.parameters else ""
     print(f"{args.study}: OK: {len(inp.packages)} packages, {len(inp.zones)} zones, "
-          f"{len(inp.conditions)} conditions")
+          f"{len(inp.conditions)} conditions{varies}")
     return 0
 
 
