@@ -136,6 +136,24 @@ def test_sweep_spectra_are_the_budget_tables(tmp_path):
     np.testing.assert_array_equal(res.spectra.interior_db[0, 0], cruise)
 
 
+def test_inherited_zone_from_a_stack_file(tmp_path):
+    # the package varies a zone it takes over (based_on) from a package whose zone is a
+    # stack file; the variant must equal that stack file written with the value
+    layers = DOUBLE.split('name = "p"\n', 1)[1].replace("[[package.zone.wall.layer]]",
+                                                          "[[layer]]")
+    (tmp_path / "wall.toml").write_text(layers.replace("@T@", "45 mm"))
+    pkg = ('[[package]]\nname = "p"\n[package.zone.wall]\nstack = "wall.toml"\n'
+           '[[package]]\nname = "q"\nbased_on = "p"\n')
+    v = vary(package="q", layer=2, key="thickness", values=["70 mm"])
+    res = nb.run_sweep(write(tmp_path, study(pkg, v)))
+    (tmp_path / "wall.toml").write_text((tmp_path / "wall.toml").read_text().replace(
+        "45 mm", "70 mm"))
+    single = nb.run_study(write(tmp_path, study(pkg), "one.toml")).summary
+    s = single[single["package"] == "q"].set_index("condition")
+    assert res.loc[0, "interior_dba[cruise]"] == s.loc["cruise", "interior_dba"]
+    assert res.loc[0, "wall.layer2.thickness_m"] == 0.07
+
+
 # ---- Monte Carlo against the mass law -----------------------------------------------------
 
 def _band_tl(m, band):

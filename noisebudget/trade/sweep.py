@@ -122,6 +122,8 @@ def sweep_study(path, *, workers: int | None = 1, cluster: str | None = None,
     n = len(x)
     digest = study_digest(loaded.files, x)
     if resume:
+        if checkpoint is None:
+            raise InputError(str(path), "", "resume needs the checkpoint file")
         done, results = load_checkpoint(checkpoint, digest)
     else:
         done = np.zeros(n, bool)
