@@ -120,13 +120,16 @@ def convergence_figure(evaluations: pd.DataFrame, objective: str) -> str:
     fig, ax = plt.subplots(figsize=(3.6, 2.6))
     ok = evaluations["meets_targets"].to_numpy(bool) if objective == "treatment_mass_kg" \
         else np.ones(len(evaluations), bool)
-    best = []
-    for g in sorted(evaluations["generation"].unique()):
-        sel = ok & (evaluations["generation"] <= g).to_numpy()
-        best.append(evaluations.loc[sel, objective].min() if sel.any() else np.nan)
-    ax.plot(sorted(evaluations["generation"].unique()), best, "k.-", lw=1)
+    what = "best feasible"
+    if not ok.any():  # nothing meets the targets: show the search all the same
+        ok, what = np.ones(len(evaluations), bool), "best (none feasible)"
+    gens = sorted(evaluations["generation"].unique())
+    best = [evaluations.loc[ok & (evaluations["generation"] <= g).to_numpy(), objective].min()
+            for g in gens]
+    ax.plot(gens, best, "k.-", lw=1)
+    ax.xaxis.get_major_locator().set_params(integer=True)
     ax.set_xlabel("generation")
-    ax.set_ylabel(f"best feasible {objective}")
+    ax.set_ylabel(f"{what} {objective}")
     return _svg(fig)
 
 
