@@ -497,6 +497,18 @@ def _vary_quantity(value, kind, file, where):
     return parse_quantity(value, kind, file, where)
 
 
+def _named(t, key, names, file, where):
+    """The value of ``t[key]``, which must be one of ``names`` (a package or zone)."""
+    value = t.get(key)
+    if value is None:
+        raise InputError(file, f"{where}.{key}", "missing required key")
+    if value not in names:
+        raise InputError(file, f"{where}.{key}", f"no {key} {value!r}"
+                                                 f"{_suggest(str(value), names)} "
+                                                 f"({key}s: {', '.join(names)})")
+    return value
+
+
 def _vary_address(t, where, file, base_dir, catalog, packages, raw_packages, zone_names):
     """What a ``[[vary]]`` entry addresses: ``(package, zone, layer, cell, key, kind,
     bounds, target)``; raises InputError."""
@@ -505,12 +517,7 @@ def _vary_address(t, where, file, base_dir, catalog, packages, raw_packages, zon
     from .trade.variants import LayerTarget, physical_bounds
 
     by_name = {p.name: p for p in packages}
-    name = t.get("package")
-    if name is None:
-        raise InputError(file, f"{where}.package", "missing required key")
-    if name not in by_name:
-        raise InputError(file, f"{where}.package", f"no package {name!r}"
-                                                   f"{_suggest(str(name), by_name)}")
+    name = _named(t, "package", list(by_name), file, where)
     key = t.get("key")
     if not isinstance(key, str):
         raise InputError(file, f"{where}.key", "missing required key (the stack-file key "
@@ -523,12 +530,7 @@ def _vary_address(t, where, file, base_dir, catalog, packages, raw_packages, zon
                                                           "whole package: no zone, layer or cell")
         return pkg, None, None, None, key, "surface_density", physical_bounds(
             key, Field("surface_density", allow_zero=True)), None
-    zone = t.get("zone")
-    if zone is None:
-        raise InputError(file, f"{where}.zone", "missing required key")
-    if zone not in zone_names:
-        raise InputError(file, f"{where}.zone", f"no zone {zone!r}{_suggest(str(zone), zone_names)}"
-                                                f" (zones: {', '.join(zone_names)})")
+    zone = _named(t, "zone", zone_names, file, where)
     if zone not in pkg.stacks:
         return None  # the package's stack for this zone had errors, already reported
     stack = pkg.stacks[zone]
