@@ -211,10 +211,12 @@ def _print_sweep(result):
                        [(column(k).header, float(ref[k]), *(float(st.loc[k, c])
                                                             for c in cols)) for k in keys]))
     if result.probabilities is not None:
-        rows = [(r.target, r.condition, 100 * r.probability, 100 * r.ci_low,
-                 100 * r.ci_high) for r in result.probabilities.itertuples()]
+        from .report.trade import probabilities_table
+
+        t = probabilities_table(result)
         print()
-        print(format_table(["target", "condition", "P(meet) %", "95% from", "to"], rows))
+        print(format_table(["target", "condition", "meeting it (%)", "95 % from", "to"],
+                           [(r[0], r[1], *r[4:]) for r in t.rows]))
     print(f"\nnon-dominated: {plural(len(result.front), 'variant')} of "
           f"{len(result.variants)}")
 
@@ -242,13 +244,17 @@ def cmd_optimize(args) -> int:
 
 
 def _print_optimum(result):
+    from .report.model import fmt
     from .report.trade import optimum_table, slack_table
     from .textout import format_table
 
     opt = optimum_table(result)
+    shown = [(fmt(r[2], style), fmt(r[3], style))
+             for r, style in zip(opt.rows, opt.styles, strict=True)]
+    width = max(len(t) for pair in shown for t in pair)  # numbers right-aligned
     print(format_table(["quantity", "unit", "as written", "optimum"],
-                       [(r[0], r[1], *(v if v is not None else float("nan")
-                                       for v in r[2:4])) for r in opt.rows], digits=3))
+                       [(r[0], r[1], a.rjust(width), b.rjust(width))
+                        for r, (a, b) in zip(opt.rows, shown, strict=True)]))
     print()
     sl = slack_table(result)
     print(format_table([c.header for c in sl.columns],

@@ -1,6 +1,11 @@
 """Trade studies: sweeps, Monte Carlo, optimum, non-dominated set, workers and Dask,
 checkpoints, and the [[vary]] / [trade] keys, against closed forms and single runs."""
 
+import os
+import signal
+import subprocess
+import sys
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -103,16 +108,18 @@ def write(tmp_path, text, name="s.toml"):
 def test_grid_sweep_reproduces_single_runs_exactly(tmp_path):
     # source: the budget of the same stacks written out in study files (nb.run_study):
     # a variant is the package with one value changed, so every number must be identical
+    # the skin is airframe structure: the treatment mass leaves it out
+    double = DOUBLE.replace('type = "plate"', 'type = "plate"\nstructure = true')
     thick = ["30 mm", "60 mm"]
     v = vary(layer=2, key="thickness", values=thick) + vary(
         key="installation_mass", zone=None, layer=None, values=["0 kg/m^2", "0.5 kg/m^2"])
-    path = write(tmp_path, study(DOUBLE.replace("@T@", "45 mm"), v, incidence="field",
+    path = write(tmp_path, study(double.replace("@T@", "45 mm"), v, incidence="field",
                                  bands=RATED))
     sweep = nb.run_sweep(path)
     assert len(sweep) == 4
     for row in sweep.itertuples(index=False):
         t_mm, inst = row[1] * 1e3, row[2]
-        pkg = DOUBLE.replace("@T@", f"{t_mm:g} mm").replace(
+        pkg = double.replace("@T@", f"{t_mm:g} mm").replace(
             'name = "p"', f'name = "p"\ninstallation_mass = "{inst:g} kg/m^2"')
         single = nb.run_study(write(tmp_path, study(pkg, incidence="field", bands=RATED),
                                     "one.toml"))
@@ -122,7 +129,13 @@ def test_grid_sweep_reproduces_single_runs_exactly(tmp_path):
             for m in ("interior_dba", "sil4_db", "margin_dba", "margin_sil4_db"):
                 assert r[f"{m}[{c}]"] == s.loc[c, m]
         assert r["mass_kg"] == single.mass["mass_kg"].sum()
-        assert r["rw[wall]"] == single.ratings.set_index("zone").loc["wall", "rw"]
+        assert r["treatment_mass_kg"] == single.mass["treatment_mass_kg"].sum()
+        assert r["treatment_mass_kg"] < r["mass_kg"]
+        assert r["treatment_kg_m2[wall]"] == single.mass["treatment_kg_m2"].iloc[0]
+        rat = single.ratings.set_index("zone")
+        for k in ("stc", "rw", "c", "ctr", "oitc"):
+            assert r[f"{k}[wall]"] == rat.loc["wall", k]
+            assert r[f"{k}[composite]"] == rat.loc["composite", k]
     assert list(sweep.columns[1:3]) == ["wall.layer2.thickness_m", "installation_mass_kg_m2"]
 
 
@@ -152,6 +165,29 @@ def test_inherited_zone_from_a_stack_file(tmp_path):
     s = single[single["package"] == "q"].set_index("condition")
     assert res.loc[0, "interior_dba[cruise]"] == s.loc["cruise", "interior_dba"]
     assert res.loc[0, "wall.layer2.thickness_m"] == 0.07
+
+
+def test_installation_mass_of_the_zones_a_package_gives_itself(tmp_path):
+    # q takes the roof over from p (based_on) and gives the wall itself: its installation
+    # mass applies to the wall only, the roof keeps p's (as run_study counts it)
+    pkg = ('[[package]]\nname = "p"\ninstallation_mass = "0.2 kg/m^2"\n'
+           '[package.zone.wall]\nlayer = [{ type = "septum", surface_density = "2 kg/m^2" }]\n'
+           '[package.zone.roof]\nlayer = [{ type = "septum", surface_density = "3 kg/m^2" }]\n'
+           '[[package]]\nname = "q"\nbased_on = "p"\ninstallation_mass = "@I@"\n'
+           '[package.zone.wall]\nlayer = [{ type = "septum", surface_density = "4 kg/m^2" }]\n')
+    text = study(pkg).replace('[[zone]]\nname = "wall"\narea = "10 m^2"\n',
+                              '[[zone]]\nname = "wall"\narea = "10 m^2"\n'
+                              '[[zone]]\nname = "roof"\narea = "5 m^2"\n')
+    v = vary(package="q", key="installation_mass", zone=None, layer=None,
+             values=["0.1 kg/m^2", "0.9 kg/m^2"])
+    sweep = nb.run_sweep(write(tmp_path, text.replace("@I@", "0.4 kg/m^2") + v))
+    for row, inst in zip(sweep.itertuples(index=False), (0.1, 0.9), strict=True):
+        single = nb.run_study(write(tmp_path, text.replace("@I@", f"{inst} kg/m^2"),
+                                    "one.toml")).mass
+        q = single[single["package"] == "q"]
+        assert row.treatment_mass_kg == q["treatment_mass_kg"].sum()
+        # wall 10 m^2 x (4 + inst), roof 5 m^2 x (3 + 0.2): by hand
+        assert row.treatment_mass_kg == pytest.approx(10 * (4 + inst) + 5 * 3.2)
 
 
 # ---- Monte Carlo against the mass law -----------------------------------------------------
@@ -436,6 +472,46 @@ def test_units_cells_and_prestress(tmp_path):
     assert variant.stacks["wall"].layers[:2] == pkg.stacks["wall"].layers[:2]
 
 
+def test_a_varied_key_replaces_its_alternatives(tmp_path, capsys):
+    # a cell gives tension or prestress (T = sigma h): varying one replaces the other
+    from noisebudget.trade.variants import apply_variant, design
+
+    tile = TILE.replace("@TENSION@", 'tension = "80 N/m"')
+    v = vary(layer=3, cell=1, key="prestress", values=["200 kPa", "400 kPa"])
+    loaded = nb.load_study(write(tmp_path, study(tile, v)))
+    pkg, spec = loaded.inputs.packages[0], loaded.trade
+    cells = [apply_variant(pkg, spec.parameters, x).stacks["wall"].layers[2].cells[0]
+             for x in design(spec)]
+    assert [c.tension for c in cells] == pytest.approx([50.0, 100.0])  # sigma x 0.25 mm
+    # both at once cannot be: one would be ignored
+    both = v + vary(layer=3, cell=1, key="tension", values=["60 N/m"])
+    assert main(["check", str(write(tmp_path, study(tile, both)))]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and err[0].endswith(
+        "vary[2]: varies tension, which replaces vary[1]'s prestress: vary one of them")
+
+
+def test_physical_bounds_are_the_ranges_the_schemas_declare():
+    # the layers' declared ranges (layers/*.py schema) within units.LIMITS
+    from noisebudget.layers import AirGap, Plate, Porous
+    from noisebudget.layers.resonators import CELL_SCHEMA
+    from noisebudget.trade.variants import physical_bounds, within
+    from noisebudget.tradefile import varied_field
+
+    def b(spec):
+        return physical_bounds(varied_field(spec))
+
+    assert b(Porous.schema["porosity"]) == (0.0, False, 1.0, True)
+    assert b(Porous.schema["tortuosity"]) == (1.0, True, 20.0, True)
+    assert b(Plate.schema["poisson_ratio"]) == (0.0, True, 0.5, False)
+    assert b(CELL_SCHEMA["share"]) == (0.0, False, 1.0, True)
+    assert b(Plate.schema["thickness"]) == (1e-7, True, 1e5, True)  # LIMITS["length"]
+    assert b(AirGap.schema["thickness"]) == (0.0, True, 1e5, True)  # a gap may be 0
+    assert not within(0.5, b(Plate.schema["poisson_ratio"]))
+    assert within(1.0, b(Porous.schema["porosity"])) and not within(0.0, b(
+        Porous.schema["porosity"]))
+
+
 BAD = [
     (vary(package="q", key="surface_density", values=["1 kg/m^2"]), "vary[1].package",
      "no package"),
@@ -513,3 +589,179 @@ def test_clashing_values_of_one_layer_are_refused_by_check(tmp_path, capsys):
     assert main(["check", str(path)]) == 2
     err = capsys.readouterr().err
     assert "vary: a variant" in err and "mass_radius" in err
+
+
+# ---- output sets: checked before computing, moved into place whole, checkpoint kept ----
+
+SWEEP_DRIVER = r'''
+import sys
+import noisebudget.cli as cli
+import noisebudget.trade.sweep as sweep
+
+class Hold:                    # after two chunks the sweep waits for a signal
+    def __init__(self, total, initial):
+        self.seen = 0
+    def update(self, n):
+        self.seen += 1
+        if self.seen == 2:
+            print("MARK computing", flush=True)
+            sys.stdin.read()
+            raise SystemExit("not interrupted")
+    def close(self):
+        pass
+
+sweep._counter = lambda what: Hold
+sys.exit(cli.main(sys.argv[1:]))
+'''
+
+
+@pytest.mark.parametrize("sig, code", [(signal.SIGINT, 130), (signal.SIGTERM, 143)])
+def test_interrupted_sweep_keeps_its_checkpoint_beside_the_outputs(mc_study, tmp_path, sig,
+                                                                   code):
+    out = tmp_path / "out"
+    proc = subprocess.Popen([sys.executable, "-c", SWEEP_DRIVER, "sweep", str(mc_study), "-o",
+                             str(out), "--workers", "1"], stdin=subprocess.PIPE,
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                            env={**os.environ, "MPLBACKEND": "Agg"})
+    for line in proc.stdout:
+        if line.startswith("MARK computing"):
+            break
+    proc.send_signal(sig)
+    _, err = proc.communicate(timeout=120)
+    assert proc.returncode == code, err
+    lines = err.strip().splitlines()
+    assert len(lines) == 1 and "Traceback" not in err, err
+    ck = out / "s-sweep.checkpoint.npz"
+    assert lines[0] == (f"noisebudget: sweep interrupted ({sig.name}); 4 finished variants "
+                        f"kept in {ck}: continue with --resume")
+    assert sorted(p.name for p in out.iterdir()) == [ck.name]  # no output, no staging
+    # a new sweep does not silently discard it; --resume finishes it
+    assert main(["sweep", str(mc_study), "-o", str(out), "-q"]) == 2
+    assert main(["sweep", str(mc_study), "-o", str(out), "--resume", "--workers", "1",
+                 "-q", "--only", "csv"]) == 0
+    assert not ck.exists()
+    fresh = sweep_study(mc_study)
+    resumed = pd.read_csv(out / "s-sweep-variants.csv")
+    np.testing.assert_allclose(resumed["max_interior_dba"], fresh.variants["max_interior_dba"],
+                               rtol=1e-6)  # the CSV holds six significant figures
+
+
+def test_sweep_outputs_refused_before_computing(tmp_path, monkeypatch, capsys):
+    v = vary(key="surface_density", values=["1 kg/m^2", "3 kg/m^2"])
+    path = write(tmp_path, study(SEPTUM.replace("@SD@", "2 kg/m^2"), v))
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "s-sweep.xlsx").write_text("an earlier workbook")
+
+    def must_not_run(*args, **kwargs):
+        raise AssertionError("computed although the outputs exist")
+
+    monkeypatch.setattr("noisebudget.trade.sweep.sweep_study", must_not_run)
+    monkeypatch.setattr("noisebudget.trade.optimize.run_optimization", must_not_run)
+    for cmd in ("sweep", "optimize"):
+        name = f"s-{cmd}.xlsx"
+        (out / name).write_text("an earlier workbook")
+        assert main([cmd, str(path), "-o", str(out)]) == 2
+        err = capsys.readouterr().err.strip().splitlines()
+        assert err == [f"{out / name}: exists; use --force to replace the outputs"]
+        assert (out / name).read_text() == "an earlier workbook"
+
+
+def test_force_replaces_the_whole_set_and_only_selects_outputs(tmp_path):
+    v = vary(key="surface_density", values=["1 kg/m^2", "3 kg/m^2"])
+    path = write(tmp_path, study(SEPTUM.replace("@SD@", "2 kg/m^2"), v))
+    out = tmp_path / "out"
+    assert main(["sweep", str(path), "-o", str(out), "--workers", "1", "-q"]) == 0
+    full = {p.name for p in out.iterdir()}
+    assert full == {f"s-sweep-{t}.csv" for t in ("variants", "statistics", "front",
+                                                 "sensitivities")} | {"s-sweep.pdf",
+                                                                      "s-sweep.xlsx"}
+    assert main(["sweep", str(path), "-o", str(out), "--workers", "1", "-q", "--force",
+                 "--only", "xlsx"]) == 0
+    assert {p.name for p in out.iterdir()} == {"s-sweep.xlsx"}  # never two runs mixed
+
+
+def test_command_line_option_mistakes_are_one_line(tmp_path, capsys):
+    v = vary(key="surface_density", values=["1 kg/m^2"])
+    path = write(tmp_path, study(SEPTUM.replace("@SD@", "2 kg/m^2"), v))
+    out = str(tmp_path / "o")
+    for argv, words in ((["sweep", str(path), "-o", out, "--workers", "0"],
+                         "argument --workers: 0: must be at least 1"),
+                        (["optimize", str(path), "-o", out, "--mass-budget", "-5"],
+                         "argument --mass-budget: '-5': a mass must be > 0"),
+                        (["optimize", str(path), "-o", out, "--mass-budget", "5 m"],
+                         "is not a mass (expected units of kg"),
+                        (["optimize", str(path), "-o", out, "--generations", "x"],
+                         "argument --generations: 'x' is not a whole number")):
+        assert main(argv) == 2
+        err = capsys.readouterr().err.strip().splitlines()
+        assert len(err) == 1 and words in err[0], err
+    assert not (tmp_path / "o").exists()
+
+
+def test_mass_budget_takes_a_unit(tmp_path, monkeypatch):
+    v = vary(key="surface_density", range=["0.5 kg/m^2", "20 kg/m^2"], steps=2)
+    path = write(tmp_path, study(SEPTUM.replace("@SD@", "2 kg/m^2"), v))
+    seen = {}
+
+    def fake(path, **options):
+        seen.update(options)
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr("noisebudget.trade.optimize.run_optimization", fake)
+    assert main(["optimize", str(path), "-o", str(tmp_path / "o"), "--mass-budget",
+                 "0.5 t"]) == 130
+    assert seen["mass_budget_kg"] == pytest.approx(500.0)
+
+
+# ---- the trade reports follow the report model ---------------------------------------------
+
+def test_trade_workbook_and_pdf_follow_the_report_conventions(mc_study, tmp_path):
+    import openpyxl
+    from pypdf import PdfReader
+
+    from noisebudget.report import CAUTIONS
+    from noisebudget.report.model import input_hash
+
+    out = tmp_path / "out"
+    assert main(["sweep", str(mc_study), "-o", str(out), "--workers", "1", "-q"]) == 0
+    res = sweep_study(mc_study)
+    digest = input_hash(res.files)
+    wb = openpyxl.load_workbook(out / "s-sweep.xlsx")
+    assert wb.sheetnames == ["Parameters", "Statistics", "Probabilities", "Non-dominated",
+                             "Variants", "Sensitivities", "Sources", "Cautions"]
+    for ws in wb:  # the title block with the input hash on every sheet
+        assert ws["A1"].value == "trade check: trade sweep"
+        assert digest in ws["A3"].value
+        assert "varied package: p" in ws["A2"].value
+    head = [c.value for c in wb["Variants"][5]]
+    # units from the column names, varied lengths in mm like the layer tables
+    assert head[:3] == ["variant", "wall layer 2: thickness (mm)",
+                        "wall layer 3: surface density (kg/m²)"]
+    assert "treatment mass per aircraft (kg)" in head
+    assert "interior level, loudest condition (dBA)" in head
+    assert "Rw, composite (dB)" in head and "interior level, cruise (dBA)" in head
+    first = wb["Variants"][6]
+    assert first[1].value == pytest.approx(res.variants.iloc[0, 1] * 1e3)
+    assert first[1].number_format == "0.0"
+    assert [r[0].value for r in wb["Cautions"].iter_rows(min_row=6)][:len(CAUTIONS)] == \
+        list(CAUTIONS)
+    text = " ".join(p.extract_text() for p in PdfReader(out / "s-sweep.pdf").pages)
+    text = " ".join(text.split())
+    assert digest in text and "package as written" in text
+    assert text.count("Caution.") == 1 and CAUTIONS[0][:60] in text
+
+
+def test_library_arguments_are_checked(mc_study):
+    from noisebudget.checks import ArgumentError
+
+    with pytest.raises(ArgumentError, match=r"^workers = 0: need at least 1"):
+        sweep_study(mc_study, workers=0)
+    with pytest.raises(ArgumentError, match=r"^resume=True needs checkpoint="):
+        sweep_study(mc_study, resume=True)
+    with pytest.raises(ArgumentError, match=r"^cluster = 'udp://x': expected tcp://"):
+        sweep_study(mc_study, cluster="udp://x")
+    with pytest.raises(ArgumentError, match=r"^generations = 0: must be a whole number"):
+        nb.run_optimization(mc_study, generations=0)
+    with pytest.raises(ArgumentError, match=r"^mass_budget_kg = -1 kg: must be > 0"):
+        nb.run_optimization(mc_study, mass_budget_kg=-1.0)

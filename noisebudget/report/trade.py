@@ -23,7 +23,7 @@ import pandas as pd
 
 from ..writing import atomic_write_bytes
 from . import CAUTIONS
-from .model import MM, SIG3, Column, Table, column, fmt, title_block
+from .model import SIG3, Column, Table, column, fmt, title_block
 
 __all__ = ["REPORT_KINDS", "optimize_targets", "parameter_unit", "sweep_targets",
            "write_optimize_reports", "write_sweep_reports"]
@@ -33,6 +33,9 @@ SPREAD_NOTE = ("The spread shown is that of the varied inputs carried through th
                "not the models' own error: tests of representative panels decide.")
 KEY_METRICS = ("treatment_mass_kg", "mass_kg", "max_interior_dba", "max_sil4_db",
                "min_margin_dba", "min_margin_sil4_db", "min_margin_limit_db")
+# headers that say more in a trade report than the study report's words
+HEADERS = {"treatment_mass_kg": "treatment mass per aircraft (kg)",
+           "mass_kg": "total mass per aircraft (kg)"}
 _CONSTRAINTS = {"target_dba": "interior level target",
                 "target_sil4_db": "SIL4 target",
                 "target_limit_db": "interior limit spectrum",
@@ -58,7 +61,7 @@ def parameter_unit(p) -> tuple[str, float, str]:
     if p.kind == "surface_density":
         return "kg/m²", 1.0, "0.00"
     if p.kind == "length":
-        return "mm", 1e3, MM
+        return "mm", 1e3, "0.0"
     if p.kind == "mass":
         return "g", 1e3, SIG3
     if p.kind == "number":
@@ -91,12 +94,23 @@ def _shown(p, value):
     return None if value is None or value != value else float(value) * parameter_unit(p)[1]
 
 
+def key_columns(df: pd.DataFrame, spec, every: bool = False) -> list[str]:
+    """The columns of a table of variants a reader looks at first: variant (and
+    generation), the varied values, masses, the loudest condition's levels, the worst
+    margins, whether every target is met; with ``every``, all the others after them."""
+    first = ["variant", "generation", *[p.column for p in spec.parameters], *KEY_METRICS,
+             "meets_targets"]
+    keys = [k for k in first if k in df.columns]
+    return keys + [k for k in df.columns if k not in keys] if every else keys
+
+
 def _frame_table(df: pd.DataFrame, spec, keys=None) -> Table:
     """A result table with the varied values in display units and every other column
     labelled from its name."""
     params = {p.column: p for p in spec.parameters}
     keys = [k for k in (keys or df.columns) if k in df.columns]
-    cols = [_param_column(params[k]) if k in params else column(k) for k in keys]
+    cols = [_param_column(params[k]) if k in params else column(k, HEADERS.get(k))
+            for k in keys]
     if "variant" in keys:
         cols[keys.index("variant")] = Column("variant", "variant", "0")
     if "generation" in keys:
@@ -158,7 +172,7 @@ def parameters_table(result) -> Table:
 
 
 def _metric_words(key: str) -> tuple[str, str, str]:
-    c = column(key)
+    c = column(key, HEADERS.get(key))
     words = c.header[:-len(c.unit) - 3] if c.unit else c.header
     return words, c.unit, c.style
 
@@ -226,7 +240,7 @@ def sensitivities_table(result) -> Table:
 def slack_table(result) -> Table:
     """Each constraint at the optimum: value, limit and slack in its unit."""
     rows = [[_CONSTRAINTS.get(r.constraint, r.constraint),
-             "every condition" if r.condition == "all" else r.condition, r.unit,
+             "-" if r.constraint == "mass_budget_kg" else r.condition, r.unit,
              _plain(r.value), _plain(r.limit), _plain(r.slack)]
             for r in result.slack.itertuples(index=False)]
     cols = [Column("constraint", "constraint"), Column("condition", "condition"),
@@ -261,28 +275,35 @@ def optimum_table(result) -> Table:
 # ---------------------------------------------------------------------------- figures
 
 def front_figure(points: pd.DataFrame, front: pd.DataFrame | None, reference, target_dba,
-                 optimum=None, what: str = "variant") -> str:
+                 optimum=None, what: str = "variant", budget: float | None = None) -> str:
     """Treatment mass against the loudest condition's interior level: every variant
-    (coloured by whether it meets every target), the non-dominated ones joined, the
-    package as written, the optimum and the target."""
+    (coloured by whether it meets every target, or with a mass ``budget`` whether it
+    stays within it), the non-dominated ones joined, the package as written, the optimum,
+    the target and the budget."""
     from .figures import WIDTH, _legend_below, _plt, _svg
 
     plt = _plt()
     fig, ax = plt.subplots(figsize=(WIDTH, 3.1), layout="constrained")
     x = points["treatment_mass_kg"].to_numpy(float)
     y = points["max_interior_dba"].to_numpy(float)
-    met = points["meets_targets"].to_numpy(bool) if "meets_targets" in points else None
+    if budget is not None:
+        met, words = x <= budget, ("over the mass budget", "within the mass budget")
+    elif "meets_targets" in points:
+        met, words = points["meets_targets"].to_numpy(bool), ("missing a target",
+                                                              "meeting every target")
+    else:
+        met, words = np.ones(len(x), bool), ("", "")
     size = 9 if len(points) < 400 else 4
     handles = {}
-    if met is not None:
-        if (~met).any():
-            handles[f"{what} missing a target"] = ax.scatter(x[~met], y[~met], s=size,
-                                                             c="#9a9a9a", lw=0)
-        if met.any():
-            handles[f"{what} meeting every target"] = ax.scatter(x[met], y[met], s=size,
-                                                                 c="#1f77b4", lw=0)
-    else:
-        handles[what + "s"] = ax.scatter(x, y, s=size, c="#1f77b4", lw=0)
+    if (~met).any():
+        handles[f"{what} {words[0]}"] = ax.scatter(x[~met], y[~met], s=size, c="#9a9a9a",
+                                                   lw=0)
+    if met.any():
+        handles[f"{what} {words[1]}".strip()] = ax.scatter(x[met], y[met], s=size,
+                                                           c="#1f77b4", lw=0)
+    if budget is not None:
+        handles[f"mass budget {fmt(budget)} kg"] = ax.axvline(budget, color="#555", ls=":",
+                                                              lw=1.2)
     if front is not None and len(front):
         (handles["non-dominated variants"],) = ax.plot(
             front["treatment_mass_kg"], front["max_interior_dba"], "-", color="#2ca02c",
@@ -296,12 +317,28 @@ def front_figure(points: pd.DataFrame, front: pd.DataFrame | None, reference, ta
                                         [optimum["max_interior_dba"]], marker="*", s=160,
                                         c="#ffbf00", edgecolors="k", lw=0.6, zorder=6)
     if target_dba is not None:
-        handles["target"] = ax.axhline(target_dba, color="#a33", ls="--", lw=1)
+        handles.update(_target_line(ax, y, target_dba))
     ax.margins(0.06)
     ax.set_xlabel("treatment mass per aircraft (kg)")
     ax.set_ylabel("interior level, loudest condition (dBA)")
     _legend_below(fig, list(handles.values()), list(handles), ncol=3)
     return _svg(fig)
+
+
+def _target_line(ax, y, target) -> dict:
+    """The target as a dashed line where it lies near the points; far from them, a
+    legend entry that says where it is, so the points keep the height of the plot."""
+    from matplotlib.lines import Line2D
+
+    y = y[np.isfinite(y)]
+    lo, hi = (float(y.min()), float(y.max())) if y.size else (target, target)
+    span = max(hi - lo, 1.0)
+    if lo - span <= target <= hi + span:
+        return {f"target {fmt(target)} dBA": ax.axhline(target, color="#a33", ls="--",
+                                                        lw=1)}
+    where = "below" if target < lo else "above"
+    proxy = Line2D([], [], color="#a33", ls="--", lw=1)
+    return {f"target {fmt(target)} dBA, {where} the levels shown": proxy}
 
 
 def spread_figure(band_hz, values, names, ylabel, monte_carlo: bool, reference) -> str:
@@ -373,27 +410,41 @@ def sensitivity_figure(sens: pd.DataFrame, metrics, params) -> str | None:
     return _svg(fig)
 
 
-def convergence_figure(evaluations: pd.DataFrame, objective: str) -> str:
-    """The best objective after each generation of the search."""
+def convergence_figure(evaluations: pd.DataFrame, objective: str,
+                       budget: float | None = None) -> str:
+    """The best feasible objective after each generation of the search (meeting every
+    target, or within the mass ``budget``)."""
     from .figures import WIDTH, _plt, _svg
 
     plt = _plt()
     fig, ax = plt.subplots(figsize=(WIDTH, 2.2), layout="constrained")
     lightest = objective == "treatment_mass_kg"
-    ok = evaluations["meets_targets"].to_numpy(bool) if lightest and \
-        "meets_targets" in evaluations else np.ones(len(evaluations), bool)
-    label = ("lightest treatment mass meeting every target (kg)" if lightest else
-             "lowest interior level within the mass budget (dBA)")
-    if not ok.any():  # nothing meets the targets: show the search all the same
+    if lightest:
+        ok = evaluations["meets_targets"].to_numpy(bool) if "meets_targets" in \
+            evaluations else np.zeros(len(evaluations), bool)
+        label = "lightest treatment meeting\nevery target (kg)"
+    else:
+        ok = evaluations["treatment_mass_kg"].to_numpy(float) <= budget
+        label = "lowest level of the loudest\ncondition within the budget (dBA)"
+    values = evaluations[objective].to_numpy(float)
+    if not ok.any():  # nothing feasible: how near the search came, the least shortfall
+        if lightest:
+            margins = [c for c in evaluations.columns if c.startswith(
+                ("margin_dba[", "margin_sil4_db[", "margin_limit_db["))]
+            values = np.nansum(np.maximum(-evaluations[margins].to_numpy(float), 0.0),
+                               axis=1)
+            label = "least total shortfall\nfrom the targets (dB)"
+        else:
+            values = evaluations["treatment_mass_kg"].to_numpy(float) - budget
+            label = "least excess over\nthe mass budget (kg)"
         ok = np.ones(len(evaluations), bool)
-        label = "lightest treatment mass found, no variant meeting every target (kg)"
     gens = sorted(evaluations["generation"].unique())
     g = evaluations["generation"].to_numpy()
-    best = [evaluations.loc[ok & (g <= k), objective].min() for k in gens]
+    best = [values[ok & (g <= k)].min() for k in gens]
     ax.plot(gens, best, "k.-", lw=1)
     ax.xaxis.get_major_locator().set_params(integer=True)
     ax.set_xlabel("generation of the search")
-    ax.set_ylabel(label if len(label) < 45 else label.replace(" (", "\n("), fontsize=7)
+    ax.set_ylabel(label)
     return _svg(fig)
 
 
@@ -441,9 +492,16 @@ def sweep_context(result) -> dict:
     front = _frame_table(result.front.head(60), result.spec, front_keys)
     ctx = _common(result, "trade sweep")
     info = result.info
-    where = (f"on the Dask cluster {info['cluster']}" if info.get("cluster") else
-             f"on {info.get('workers') or 'one per core'} local process"
-             f"{'es' if info.get('workers') != 1 else ''}")
+    if info.get("cluster"):
+        where = f"on the Dask cluster {info['cluster']}"
+    elif info.get("workers") == 1:
+        where = "in one process"
+    else:
+        import os
+
+        n = info.get("workers") or os.cpu_count() or 1
+        where = f"on {n} local processes" + ("" if info.get("workers") else
+                                              " (one per core)")
     ctx.update(sweep=True, mc=mc, n=len(v), seconds=result.seconds, where=where, figs=figs,
                stats=statistics_table(result),
                probabilities=probabilities_table(result) if mc else None,
@@ -458,16 +516,29 @@ def optimize_context(result) -> dict:
     inp = result.model.inputs
     ev = result.evaluations
     ref, opt = result.reference.iloc[0], result.optimum.iloc[0]
+    budget = result.mass_budget_kg
     figs = {"candidates": front_figure(ev, None, ref, inp.targets.get("dba"), opt,
-                                       what="candidate"),
-            "convergence": convergence_figure(ev, result.objective)}
+                                       what="candidate", budget=budget),
+            "convergence": convergence_figure(ev, result.objective, budget)}
     saved = float(ref["treatment_mass_kg"] - opt["treatment_mass_kg"])
     ctx.update(sweep=False, objective=result.objective, budget=result.mass_budget_kg,
                feasible=result.feasible, evaluations=result.evaluations_used,
-               generations=result.generations, message=result.message,
+               generations=result.generations, message=_stopped(result),
                seconds=result.seconds, optimum=optimum_table(result),
                slack=slack_table(result), figs=figs, saved=saved)
     return ctx
+
+
+def _stopped(result) -> str:
+    """Why the search stopped, in words."""
+    text = result.message.rstrip(". ")
+    if "Maximum number of iterations" in text:
+        return f"it ran the most generations allowed ({result.generations})"
+    if "terminated successfully" in text:
+        return "the candidates of a generation agreed within the tolerance"
+    if "does not satisfy the constraints" in text:
+        return "it ran its generations without finding a candidate that meets every target"
+    return text
 
 
 def _write_pdf(context: dict, path: Path) -> None:
@@ -480,9 +551,12 @@ def _write_pdf(context: dict, path: Path) -> None:
 
 # ---------------------------------------------------------------------------- workbook
 
-def _workbook(sheets, tb: dict, path: Path) -> None:
-    """Sheets ``(name, Table, chart)`` with the title block, then the sources and the
-    caution, written atomically."""
+WIDE = 16  # a sheet with more columns prints this many columns a page wide
+
+
+def _workbook(sheets, tb: dict, path: Path, charts=None) -> None:
+    """Sheets ``(name, Table)`` with the title block, then the sources and the caution;
+    ``charts(wb, tables)`` adds the charts; written atomically."""
     from openpyxl import Workbook
 
     from .workbook import _properties, _sheet, _wrap_long
@@ -490,10 +564,12 @@ def _workbook(sheets, tb: dict, path: Path) -> None:
     wb = Workbook()
     wb.remove(wb.active)
     _properties(wb, tb)
-    for name, table, chart in sheets:
+    for name, table in sheets:
         ws = _sheet(wb, name, table, tb, widths={"varies": 50, "values": 50})
-        if chart is not None:
-            chart(ws, table)
+        if len(table.columns) > WIDE:  # a data sheet: readable pages, not one page wide
+            ws.page_setup.fitToWidth = -(-len(table.columns) // WIDE)
+    if charts is not None:
+        charts(wb, dict(sheets))
     src = [[name, f"SHA-256 {digest}"] for name, digest in tb["files"]]
     src.append(["input hash", f"SHA-256 over the lines 'digest  file name' above, sorted: "
                               f"{tb['input_hash']}"])
@@ -510,44 +586,110 @@ def _workbook(sheets, tb: dict, path: Path) -> None:
     atomic_write_bytes(path, buf.getvalue())
 
 
+def _cells(ws, table: Table, key: str, rows=None):
+    """The column of ``key`` in a sheet written by ``_sheet``: ``(column, first row, last
+    row)``, or the rows ``rows`` (0-based rows of the table) only."""
+    from .workbook import HEADER_ROW
+
+    col = [c.key for c in table.columns].index(key) + 1
+    lo, hi = (0, len(table.rows) - 1) if rows is None else rows
+    return col, HEADER_ROW + 1 + lo, HEADER_ROW + 1 + hi
+
+
+def _point_series(ws, table, x_key, y_key, title, colour, rows=None, line=False,
+                  x_ws=None, y_ws=None, y_table=None, y_rows=None):
+    from openpyxl.chart import Reference, Series
+
+    from .workbook import _colour
+
+    xc, xlo, xhi = _cells(ws, table, x_key, rows)
+    yc, ylo, yhi = _cells(y_ws or ws, y_table or table, y_key, y_rows or rows)
+    s = Series(Reference(y_ws or ws, min_col=yc, min_row=ylo, max_row=yhi),
+               Reference(x_ws or ws, min_col=xc, min_row=xlo, max_row=xhi), title=title)
+    s.marker.symbol = "circle"
+    s.marker.size = 5 if line else 4
+    _colour(s, colour, line=line)
+    return s
+
+
 def _mass_level_chart(title: str):
-    """A workbook chart of treatment mass against the loudest condition's level."""
+    """A workbook chart of treatment mass per aircraft against the loudest condition's
+    level, its legend below the plot."""
+    from openpyxl.chart import ScatterChart
 
-    def chart(ws, table: Table):
-        from openpyxl.chart import Reference, ScatterChart, Series
+    ch = ScatterChart()
+    ch.title, ch.style, ch.scatterStyle = title, 13, "lineMarker"
+    ch.x_axis.title = "treatment mass per aircraft (kg)"
+    ch.y_axis.title = "interior level, loudest condition (dBA)"
+    ch.x_axis.delete = False
+    ch.y_axis.delete = False
+    ch.legend.position = "b"
+    ch.height, ch.width = 9, 17
+    return ch
 
-        from .workbook import HEADER_ROW, _anchor, _colour
 
-        keys = [c.key for c in table.columns]
-        if not table.rows or "treatment_mass_kg" not in keys:
-            return
-        xc, yc = keys.index("treatment_mass_kg") + 1, keys.index("max_interior_dba") + 1
-        ch = ScatterChart()
-        ch.title, ch.style, ch.scatterStyle = title, 13, "lineMarker"
-        ch.x_axis.title = "treatment mass per aircraft (kg)"
-        ch.y_axis.title = "interior level, loudest condition (dBA)"
-        ch.x_axis.delete = False
-        ch.y_axis.delete = False
-        ch.legend = None  # one series, named in the title
-        ch.height, ch.width = 9, 16
-        n = len(table.rows)
-        s = Series(Reference(ws, min_col=yc, min_row=HEADER_ROW + 1, max_row=HEADER_ROW + n),
-                   Reference(ws, min_col=xc, min_row=HEADER_ROW + 1, max_row=HEADER_ROW + n),
-                   title=title)
-        s.marker.symbol = "circle"
-        s.marker.size = 4
-        _colour(s, "1f77b4", line=False)
-        ch.series.append(s)
-        xs = [r[xc - 1] for r in table.rows if isinstance(r[xc - 1], float)]
-        ys = [r[yc - 1] for r in table.rows if isinstance(r[yc - 1], float)]
-        if xs and ys:
-            pad = max(max(xs) - min(xs), 1.0) * 0.05
-            ch.x_axis.scaling.min, ch.x_axis.scaling.max = min(xs) - pad, max(xs) + pad
-            ch.y_axis.scaling.min = np.floor(min(ys)) - 1
-            ch.y_axis.scaling.max = np.ceil(max(ys)) + 1
-        ws.add_chart(ch, _anchor(ws, table, 0))
+def _axis_range(ch, xs, ys) -> None:
+    xs = [v for v in xs if isinstance(v, float)]
+    ys = [v for v in ys if isinstance(v, float)]
+    if xs and ys:
+        pad = max(max(xs) - min(xs), 1.0) * 0.05
+        ch.x_axis.scaling.min = float(np.floor(min(xs) - pad))
+        ch.x_axis.scaling.max = float(np.ceil(max(xs) + pad))
+        ch.y_axis.scaling.min = float(np.floor(min(ys)) - 1)
+        ch.y_axis.scaling.max = float(np.ceil(max(ys)) + 1)
 
-    return chart
+
+def _reference_point(wb, tables, sheet: str, column_key: str, title: str, colour: str):
+    """A one-point series at a quantity table's treatment mass and loudest level (the
+    rows of ``Statistics`` or ``Optimum``)."""
+    from openpyxl.chart import Reference, Series
+
+    from .workbook import HEADER_ROW, _colour
+
+    t, ws = tables[sheet], wb[sheet]
+    names = [r[0] for r in t.rows]
+    col = [c.key for c in t.columns].index(column_key) + 1
+    rx = HEADER_ROW + 1 + names.index(_metric_words("treatment_mass_kg")[0])
+    ry = HEADER_ROW + 1 + names.index(_metric_words("max_interior_dba")[0])
+    s = Series(Reference(ws, min_col=col, min_row=ry), Reference(ws, min_col=col, min_row=rx),
+               title=title)
+    s.marker.symbol = "square" if column_key == "as_written" else "diamond"
+    s.marker.size = 9
+    _colour(s, colour, line=False)
+    return s
+
+
+def _sweep_charts(wb, tables) -> None:
+    from .workbook import _anchor
+
+    front, every = tables["Non-dominated"], tables["Variants"]
+    ws = wb["Non-dominated"]
+    ch = _mass_level_chart("Treatment mass against the loudest condition's level")
+    ch.series.append(_point_series(wb["Variants"], every, "treatment_mass_kg",
+                                   "max_interior_dba", "every variant", "9a9a9a"))
+    if front.rows:
+        ch.series.append(_point_series(ws, front, "treatment_mass_kg", "max_interior_dba",
+                                       "non-dominated variants", "2ca02c", line=True))
+    ch.series.append(_reference_point(wb, tables, "Statistics", "as_written",
+                                      "package as written", "000000"))
+    _axis_range(ch, every.values("treatment_mass_kg"), every.values("max_interior_dba"))
+    ws.add_chart(ch, _anchor(ws, front, 0))
+
+
+def _optimize_charts(wb, tables) -> None:
+    from .workbook import _anchor
+
+    cand = tables["Candidates"]
+    ws = wb["Optimum"]  # a narrow sheet: the chart sits beside its table
+    ch = _mass_level_chart("Candidates of the search")
+    ch.series.append(_point_series(wb["Candidates"], cand, "treatment_mass_kg",
+                                   "max_interior_dba", "candidate", "1f77b4"))
+    ch.series.append(_reference_point(wb, tables, "Optimum", "optimum", "optimum",
+                                      "ffbf00"))
+    ch.series.append(_reference_point(wb, tables, "Optimum", "as_written",
+                                      "package as written", "000000"))
+    _axis_range(ch, cand.values("treatment_mass_kg"), cand.values("max_interior_dba"))
+    ws.add_chart(ch, _anchor(ws, tables["Optimum"], 0))
 
 
 def write_sweep_reports(result, outdir: Path, stem: str, kinds=REPORT_KINDS) -> list[Path]:
@@ -557,16 +699,16 @@ def write_sweep_reports(result, outdir: Path, stem: str, kinds=REPORT_KINDS) -> 
     if "xlsx" in kinds:
         written.append(outdir / f"{stem}-sweep.xlsx")
         spec = result.spec
-        sheets = [("Parameters", parameters_table(result), None),
-                  ("Statistics", statistics_table(result), None)]
+        sheets = [("Parameters", parameters_table(result)),
+                  ("Statistics", statistics_table(result))]
         if result.probabilities is not None:
-            sheets.append(("Probabilities", probabilities_table(result), None))
-        sheets += [("Non-dominated", _frame_table(result.front, spec),
-                    _mass_level_chart("Non-dominated variants")),
-                   ("Variants", _frame_table(result.variants, spec),
-                    _mass_level_chart("Every variant")),
-                   ("Sensitivities", sensitivities_table(result), None)]
-        _workbook(sheets, _title(result, "trade sweep"), written[-1])
+            sheets.append(("Probabilities", probabilities_table(result)))
+        sheets += [("Non-dominated", _frame_table(result.front, spec,
+                                                  key_columns(result.front, spec))),
+                   ("Variants", _frame_table(result.variants, spec,
+                                             key_columns(result.variants, spec, True))),
+                   ("Sensitivities", sensitivities_table(result))]
+        _workbook(sheets, _title(result, "trade sweep"), written[-1], _sweep_charts)
     if "pdf" in kinds:
         written.append(outdir / f"{stem}-sweep.pdf")
         _write_pdf(sweep_context(result), written[-1])
@@ -580,12 +722,14 @@ def write_optimize_reports(result, outdir: Path, stem: str,
     written = []
     if "xlsx" in kinds:
         written.append(outdir / f"{stem}-optimize.xlsx")
-        sheets = [("Parameters", parameters_table(result), None),
-                  ("Optimum", optimum_table(result), None),
-                  ("Constraints", slack_table(result), None),
-                  ("Candidates", _frame_table(result.evaluations, result.spec),
-                   _mass_level_chart("Candidates evaluated"))]
-        _workbook(sheets, _title(result, optimize_context_title(result)), written[-1])
+        ev = result.evaluations
+        sheets = [("Parameters", parameters_table(result)),
+                  ("Optimum", optimum_table(result)),
+                  ("Constraints", slack_table(result)),
+                  ("Candidates", _frame_table(ev, result.spec,
+                                              key_columns(ev, result.spec, True)))]
+        _workbook(sheets, _title(result, optimize_context_title(result)), written[-1],
+                  _optimize_charts)
     if "pdf" in kinds:
         written.append(outdir / f"{stem}-optimize.pdf")
         _write_pdf(optimize_context(result), written[-1])
