@@ -198,7 +198,7 @@ def statistics_table(result) -> Table:
         words, unit, style = _metric_words(k)
         rows.append([words, unit, _plain(ref.get(k)),
                      *[_plain(st.loc[k, s]) for s in stats]])
-        styles.append(style if style != "0" else "0.0")
+        styles.append("0.0" if style == "0" and mc else style)  # a mean of ratings
     return Table(cols, rows, styles)
 
 
@@ -463,9 +463,16 @@ def _render(context: dict) -> bytes:
 
 def _common(result, what: str) -> dict:
     inp = result.model.inputs
+    t = inp.targets
+    wanted = ([f"an interior level of at most {fmt(t['dba'])} dBA"] if "dba" in t else []) \
+        + ([f"a SIL4 of at most {fmt(t['sil4'])} dB"] if "sil4" in t else []) \
+        + (["interior band levels within the limit spectrum"] if "limit" in t else [])
+    targets = (f"Targets: {', '.join(wanted[:-1]) + ' and ' if len(wanted) > 1 else ''}"
+               f"{wanted[-1]}, in every flight condition." if wanted else
+               "The study sets no targets.")
     return {"title": _title(result, what), "cautions": CAUTIONS, "spread_note": SPREAD_NOTE,
             "parameters": parameters_table(result), "spec": result.spec,
-            "incidence": inp.incidence, "targets": inp.targets}
+            "incidence": inp.incidence, "targets": targets}
 
 
 def sweep_context(result) -> dict:
