@@ -233,7 +233,9 @@ def _address(t, where, name, layer_entries, own, zone_names, reader):
     entry = entries[index - 1]
     cls = type(entry.layer)
     schema = cls.schema
-    what = f"layer {index} ({entry.label}, a {cls.type_name} layer)"
+    kind = f"{'an' if cls.type_name[0] in 'aeiou' else 'a'} {cls.type_name} layer"
+    what = (f"layer {index} ({kind})" if entry.label == cls.type_name else
+            f"layer {index} ({entry.label}, {kind})")
     if cell is not None:
         cells = entry.values.get("cell")
         if "cell" not in schema or not isinstance(cells, list):
