@@ -335,9 +335,12 @@ def test_leaks_table_against_the_study_file(html, demo_toml):
         assert float(row["open area (mm²)"]) == pytest.approx(area, abs=0.051)
         behind = leak.get("behind_layer", 0)
         assert int(row["behind layer"].split()[0]) == behind
-        n_layers = len(_layer_entries(zt))
-        if n_layers:
-            assert len(row["bypasses layers"].split("; ")) == n_layers - behind
+        if behind:
+            entries = _layer_entries(zt)
+            if entries:
+                e = entries[behind - 1]
+                assert row["behind layer"] == \
+                    f"{behind} {e.get('name') or e.get('use') or e['type']}"
 
 
 def test_interior_sources_and_conversions(html, demo_toml):

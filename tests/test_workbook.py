@@ -195,11 +195,15 @@ def test_inputs_sheets_have_the_study_inputs(wb, toml):
     # leaks: dimensions in mm, open area in mm^2 from the dimensions
     leaks = {(r["package"].value, r["zone"].value, r["leak"].value): r
              for r in records(wb["Leaks"])}
-    given = [(p["name"], zn, leak) for p in toml["package"]
+    given = [(p["name"], zn, leak, zt) for p in toml["package"]
              for zn, zt in p.get("zone", {}).items() for leak in zt.get("leak", [])]
     assert len(leaks) == len(given)
-    for pkg, zone, leak in given:
+    for pkg, zone, leak, zt in given:
         r = leaks[(pkg, zone, leak.get("name", "unnamed"))]
+        layers = zt.get("layer", [])
+        if isinstance(layers, list) and layers:  # the layers after behind_layer
+            bypassed = r["bypasses layers"].value.split("; ")
+            assert len(bypassed) == len(layers) - leak.get("behind_layer", 0)
         assert r["depth (mm)"].value == pytest.approx(_mm(leak["depth"]), rel=1e-12)
         if leak["shape"] == "slit":
             area = _mm(leak["width"]) * _mm(leak["length"])

@@ -102,7 +102,7 @@ def exterior_spectra(conditions) -> str:
     ``conditions``: list of dicts with ``name``, ``band_hz``, ``level_db`` and ``tones``
     (a list of ``(name, frequency_hz, level_db)``).
     """
-    fig, axes = _panels(len(conditions), ncols=2)
+    fig, axes = _panels(len(conditions), ncols=2, height=1.85)
     lo = min(min(c["band_hz"]) for c in conditions)
     hi = max(max(c["band_hz"]) for c in conditions)
     levels = np.concatenate([np.concatenate([c["level_db"], [t[2] for t in c["tones"]]])

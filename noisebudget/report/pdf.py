@@ -152,6 +152,14 @@ def _cells(table, blank: int = 0) -> list:
     return out
 
 
+def _without(table, *keys):
+    """The table without the columns ``keys`` (a narrower view for the page)."""
+    from .model import Table
+
+    keep = [j for j, c in enumerate(table.columns) if c.key not in keys]
+    return Table([table.columns[j] for j in keep], [[r[j] for j in keep] for r in table.rows])
+
+
 def _environment():
     import jinja2
 
@@ -163,6 +171,7 @@ def _environment():
     env.filters["fmt"] = fmt
     env.filters["svg"] = svg_data_uri
     env.globals["cells"] = _cells
+    env.globals["without"] = _without
     return env
 
 

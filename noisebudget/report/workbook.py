@@ -184,11 +184,12 @@ def _colour(series, hex_colour: str, line: bool = True):
 
 
 def _y_range(chart, values, step: float = 10.0):
-    """The y axis from the data rounded out to ``step`` (dB axes need not start at 0)."""
+    """The y axis from the data rounded out to ``step`` with a little room above and
+    below (dB axes need not start at 0)."""
     v = [x for x in values if isinstance(x, float)]
     if v:
-        chart.y_axis.scaling.min = step * np.floor(min(v) / step)
-        chart.y_axis.scaling.max = step * np.ceil(max(v) / step)
+        chart.y_axis.scaling.min = step * np.floor((min(v) - 0.2 * step) / step)
+        chart.y_axis.scaling.max = step * np.ceil((max(v) + 0.2 * step) / step)
         chart.y_axis.majorUnit = step
         chart.y_axis.number_format = "0"
 
