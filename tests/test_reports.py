@@ -204,7 +204,7 @@ def test_figures_cover_every_condition_and_zone(html):
     tile = with_text("effective surface mass, real part (kg/m²)")
     assert tile and all("sign(m)" not in s and "lg(1" not in s for s in svgs)
     drawings = with_text("material", "exterior", "cabin")
-    assert len(drawings) == 8  # the distinct stacks of the demo, each with its key
+    assert len(drawings) == 9  # the distinct stacks of the demo, each with its key
     assert all(">trim / sandwich<" in d for d in drawings if ">tile<" in d)
 
 

@@ -142,7 +142,8 @@ def main():
     n_nested = count_points(nested_general)
     print(f"  skin | blanket | Biot foam bonded to a septum | gap | trim, bay (general "
           f"solve, skin between fluids): {len(bands)}-band TL {t_band:.2f} s, {n_band} "
-          f"(f, theta) points, azimuth in closed form (one solve per point: the skin faces the source)")
+          f"(f, theta) points, azimuth in closed form (one solve per point: the skin faces "
+          f"the source)")
     print(f"    3 frequencies: closed form {1e3 * t_closed:.0f} ms; nested adaptive "
           f"{1e3 * t_nested:.0f} ms, {n_nested} (f, theta, phi) points; difference "
           f"{np.max(np.abs(10 * np.log10(closed / np.minimum(slow, 1.0)))):.4f} dB")
