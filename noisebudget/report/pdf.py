@@ -24,10 +24,20 @@ REFERENCES = [
     "D. L. Johnson, J. Koplik, R. Dashen, J. Fluid Mech. 176 (1987) 379-402; Y. Champoux, "
     "J. F. Allard, J. Appl. Phys. 70 (1991) 1975.",
     "R. Panneton, Comments on the limp frame equivalent fluid model, JASA 122 (2007) EL217.",
+    "M. A. Biot, JASA 28 (1956) 168-191; H. Deresiewicz, R. Skalak, Bull. Seismol. Soc. "
+    "Am. 53 (1963) 783; B. L. N. Kennett, Seismic Wave Propagation in Stratified Media, "
+    "1983 (elastic and Biot layers, the general solve).",
+    "L. H. Donnell (1933), shallow cylindrical shells; L. R. Koval, JASA 59 (1976) 1379 "
+    "(curved, pressurised skins).",
+    "G. Kurtze, B. G. Watters, JASA 31 (1959) 739 (sandwich panels).",
+    "J.-L. Villot, C. Guigou, L. Gagliardini, J. Sound Vib. 245 (2001) 433-455 (finite "
+    "panels by spatial windowing); E. G. Sewell, J. Sound Vib. 12 (1970) 21-32.",
     "T. E. Vigran, Building Acoustics, Taylor & Francis 2008 (mass law, plates, Paris).",
     "L. Cremer, M. Heckl, B. Petersson, Structure-Borne Sound (plate impedance).",
     "Z. Yang et al., Membrane-type acoustic metamaterial, Phys. Rev. Lett. 101, 204301 "
     "(2008); Y. Chen et al., JASA 136 (2014) 969.",
+    "M. C. Gomperts, T. Kihlman, Acustica 18 (1967) 144 (slits); G. P. Wilson, W. W. "
+    "Soroka, JASA 37 (1965) 286 (circular holes): leaks.",
     "D. A. Bies, C. H. Hansen, Engineering Noise Control (composite TL; flow resistivity of "
     "fibres, Applied Acoustics 13 (1980)).",
     "IEC 61672-1:2013 (weightings); IEC 61260-1:2014 (bands); ISO 266 (preferred "
