@@ -6,6 +6,11 @@ each distinct package stack (packages built with ``based_on`` share stack object
 each group of leaks. The tasks are independent and run on a small thread pool (numpy
 releases the GIL inside its large array operations).
 
+A zone with a bay (``Zone.panel``) puts every package's stack on it into that bay
+(:meth:`~noisebudget.stack.Stack.with_panel`): its band and tone transmission include
+the finite-size radiation correction. The bay is the panel radiating into the cabin; the
+layers in front of a leak radiate into the cavity and keep the infinite stack.
+
 A leak behind the first k layers of a stack transmits ``tau_front(f) * tau_leak(f)``,
 with ``tau_front`` the transmission of those layers into the cavity air (the leak then
 joins the cavity air to the cabin); the band value is the band average of that product,
@@ -21,6 +26,7 @@ from dataclasses import replace
 import numpy as np
 
 from .bands import Bands, band_average
+from .multilayer import needs_general_solve
 
 __all__ = ["distinct_items", "zone_transmissions"]
 
@@ -56,7 +62,8 @@ def zone_transmissions(inp, bands: Bands, tone_hz) -> dict:
     Returns
     -------
     dict of arrays
-        ``wall`` (P, Z, B) and ``wall_tone`` (P, Z, F): the package stack's tau;
+        ``wall`` (P, Z, B) and ``wall_tone`` (P, Z, F): the package stack's tau (in the
+        zone's bay, if it has one);
         ``leak_area`` (P, Z, B) and ``leak_tone_area`` (P, Z, F): ``sum S_l tau_l`` in
         m^2; ``open_area`` (P, Z): the leaks' open area; ``absorption`` (P, B): cabin
         absorption area; ``tone_hz`` (F,).
@@ -64,7 +71,9 @@ def zone_transmissions(inp, bands: Bands, tone_hz) -> dict:
     zones, pkgs = inp.zones, inp.packages
     tone_hz = np.asarray(tone_hz, dtype=float)
     inc, tmax = inp.incidence, inp.theta_max_deg
-    stacks, s_idx = distinct_items([[p.stacks[z.name] for z in zones] for p in pkgs], id)
+    stacks, s_idx = distinct_items([[(p.stacks[z.name], z.panel) for z in zones]
+                                    for p in pkgs], lambda x: (id(x[0]), x[1]))
+    stacks = [s if bay is None else s.with_panel(*bay) for s, bay in stacks]
     leak_sets, l_idx = distinct_items([[(p.stacks[z.name], p.leaks.get(z.name, ())) for z in zones]
                                   for p in pkgs], lambda x: (id(x[0]), x[1]))
     tasks = {}
@@ -83,7 +92,7 @@ def zone_transmissions(inp, bands: Bands, tone_hz) -> dict:
         tasks["leak-tone", i] = lambda fns=fns: sum((fn(tone_hz) for fn in fns),
                                                     np.zeros(tone_hz.size)) \
             if tone_hz.size else np.zeros(0)
-    done = _run(tasks)
+    done = _run(_longest_first(tasks, stacks, leak_sets))
 
     def gather(kind, n, index):
         return np.stack([done[kind, i] for i in range(n)])[index]
@@ -101,6 +110,22 @@ def zone_transmissions(inp, bands: Bands, tone_hz) -> dict:
                                   )[l_idx],
             "absorption": np.broadcast_to(absorption, (len(pkgs), len(bands))).copy(),
             "tone_hz": tone_hz}
+
+
+def _longest_first(tasks: dict, stacks, leak_sets) -> dict:
+    """The tasks reordered by a rough cost, dearest first, so that the thread pool does not
+    start the longest one last: band averages before leaks before narrowband values;
+    stacks of the general solve (elastic layers) before direction-dependent ones before the
+    rest (a longest-first schedule)."""
+    kind = {"band": 0, "leak": 1, "absorb": 2, "tone": 3, "leak-tone": 4}
+
+    def rank(key):
+        what, i = key
+        s = leak_sets[i][0] if what.startswith("leak") else stacks[i]
+        solve = 0 if needs_general_solve(s.layers) else 1 if not s.isotropic else 2
+        return (kind[what] > 1, solve, kind[what])
+
+    return {k: tasks[k] for k in sorted(tasks, key=rank)}
 
 
 def distinct_items(grid, key):
