@@ -151,7 +151,7 @@ def _reciprocal(stack, f, theta, phi):
     # the general solve is reciprocal to rounding, 1e-9 of tau, or the change of tau
     # under a 1e-13 rad change of angle where a sharp, lightly damped resonance makes tau
     # that sensitive (the reversed stack has the trace wavenumber only to rounding);
-    # measured over 18 000 stacks guided towards the largest error: 1.2e-11
+    # measured over 27 000 stacks guided towards the largest error: 1.3e-11
     spread = np.zeros_like(back)
     for d in (-1e-7, 1e-7):
         near = stack.transmission_coefficient(f, np.clip(theta[ok] + d, 0, np.pi / 2), phi)
