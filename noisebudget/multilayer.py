@@ -48,9 +48,20 @@ Stable solve (recursive reflection matrices; Kennett, Seismic Wave Propagation i
 Stratified Media, 1983): starting from the receiving half-space (or a rigid wall), each
 interface gives the reflection matrix of the up-going waves of the medium above for its
 down-going waves, and the transmission matrix into the medium below; crossing a layer
-multiplies by ``exp(-j kz d)`` only (decaying factors), never by its inverse. Every step is
-a batched solve of at most 8 x 8 over all frequencies and angles; a thick Biot layer at
-high frequency cannot overflow, and the transmitted amplitude at worst underflows to 0.
+multiplies by its propagator (the factors ``exp(-j kz d)`` and their divided differences,
+all decaying), never by an inverse. Every step is a batched solve of at most 8 x 8 over
+all frequencies and angles; a thick Biot layer at high frequency cannot overflow, and the
+transmitted amplitude at worst underflows to 0.
+
+Precision (:mod:`noisebudget.wavebasis`): a solid's or frame's wave basis stays
+independent as its compressional and shear waves merge (a thin, stiff layer far below
+coincidence), and each reflection matrix is sought relative to a reference face (rigid
+for a fluid, stress-free for a stiff solid), so that neither a stiff layer between airs
+nor an air film on a heavy sheet leaves its states to a cancellation. Where the reflection
+so found is small beside an order-one transfer, one step of iterative refinement (Skeel,
+Math. Comp. 35 (1980) 817) gives it its own precision. The result: tau to about 1e-12
+against the plain transfer matrix evaluated at 60 digits, and reversed stacks agreeing to
+rounding.
 """
 
 from __future__ import annotations
@@ -329,25 +340,69 @@ def _batch(*arrays):
     return [np.broadcast_to(x, shape + np.shape(x)[-2:]) for x in arrays]
 
 
-def _solve_small(lhs, rhs, equilibrate=True):
+def _solve_small(lhs, rhs, equilibrate=True, refine=0):
     """Batched solve, rows equilibrated where a sheet's impedance makes them unequal
-    (a contact's rows combine unit columns with weights of order one)."""
+    (a contact's rows combine unit columns with weights of order one); ``refine`` > 0
+    refines where the first ``refine`` unknowns (a reflection matrix relative to a
+    reference face) come out small beside the others."""
     if equilibrate:
         scale = np.max(np.abs(lhs), axis=-1, keepdims=True)
         scale = np.where(scale > 0, scale, 1.0)
         lhs, rhs = lhs / scale, rhs / scale
+    x = _plain_solve(lhs, rhs)
+    if not refine:
+        return x
+    # Where small unknowns sit beside large ones (a reflection relative to the reference
+    # face beside an order-one transfer), partial pivoting leaves them only normwise
+    # accurate: one step of refinement where a row's residual is large against that
+    # row's own terms (Skeel 1980) gives them their own precision
+    flat = x.view(float)
+    head = np.einsum("...ij,...ij->...", flat[..., :refine, :], flat[..., :refine, :])
+    tail = np.einsum("...ij,...ij->...", flat[..., refine:, :], flat[..., refine:, :])
+    uneven = head < 1e-6 * tail
+    if uneven.any():
+        at = np.nonzero(uneven)
+        a, b, y = lhs[at], rhs[at], x[at]
+        res = b - a @ y
+        bad = np.any(np.abs(res) > 4 * np.finfo(float).eps * (np.abs(a) @ np.abs(y)
+                                                               + np.abs(b)), axis=(-2, -1))
+        if bad.any():
+            y[bad] += _plain_solve(a[bad], res[bad])
+            x[at] = y
+    return x
+
+
+def _plain_solve(lhs, rhs):
     try:
         return np.linalg.solve(lhs, rhs)
     except np.linalg.LinAlgError:  # an exactly degenerate point: least squares there
         return np.linalg.pinv(lhs) @ rhs
 
 
-def _across(medium: Medium, refl):
-    """Reflection matrix at the top face from the one at the bottom face."""
-    if medium.decay is None:
-        return refl
-    e = medium.decay
-    return e[..., :, None] * refl * e[..., None, :]
+def _sandwich(medium: Medium, x):
+    """``E x E`` with the medium's propagator E."""
+    e = medium.propagator
+    if medium.diagonal:
+        d = np.diagonal(e, axis1=-2, axis2=-1)
+        return d[..., :, None] * x * d[..., None, :]
+    return e @ x @ e
+
+
+def _top_basis(medium: Medium, refl):
+    """States at the top face of a medium, per unit down-going amplitude there, from the
+    reflection matrix ``F + refl`` at its bottom face (F its reference, if any;
+    :mod:`noisebudget.wavebasis`): ``D + U E R E`` written as ``(D + U F) + U [(E - I) F E
+    + F (E - I) + E refl E]``, which has no cancellation."""
+    e, f = medium.propagator, medium.reference
+    if f is None:
+        return medium.down + medium.up @ (refl if e is None else _sandwich(medium, refl))
+    if medium.size == 1:  # a fluid: 1 x 1 products
+        inner = refl if e is None else medium.shift * f * e + f * medium.shift + e * refl * e
+        return medium.reference_states + medium.up * inner
+    if e is None:
+        return medium.reference_states + medium.up @ refl
+    s = medium.shift
+    return medium.reference_states + medium.up @ (s @ f @ e + f @ s + e @ refl @ e)
 
 
 def _rigid_wall(medium: Medium):
@@ -394,8 +449,9 @@ def solve(layers, bonding, elements, omega, kt, source, kz1, receiver=None, kz2=
     media, joints = _chain(layers, elements, bonded[:len(layers)], omega, kt, zref, first,
                            last, azimuth)
     if last is None:
-        refl = _across(media[-1], _rigid_wall(media[-1]))
-        basis = media[-1].down + media[-1].up @ refl
+        below = media[-1]
+        refl = _rigid_wall(below)
+        basis = _top_basis(below, refl if below.reference is None else refl - below.reference)
     else:
         basis = last.down
     transfers = []
@@ -404,21 +460,26 @@ def solve(layers, bonding, elements, omega, kt, source, kz1, receiver=None, kz2=
         ga, gb, gx = joints[i]
         cols = [ga @ above.up, gb @ basis] + ([] if gx is None else [gx])
         cols = _batch(*cols)
-        rhs = _batch(-(ga @ above.down), cols[0])[0]
-        sol = _solve_small(np.concatenate(cols, axis=-1), rhs, gx is not None)
+        start = above.down if above.reference is None else above.reference_states
+        rhs = _batch(-(ga @ start), cols[0])[0]
+        # refined where the reflection is sought relative to a reference face, except at
+        # the source, whose reflection is wanted only to absolute precision
+        sol = _solve_small(np.concatenate(cols, axis=-1), rhs, gx is not None,
+                           above.size if i > 0 and above.reference is not None else 0)
         m_a, m_b = above.size, basis.shape[-1]
         refl = sol[..., :m_a, :]
         transfers.append(sol[..., m_a:m_a + m_b, :])
         if i > 0:
-            refl = _across(above, refl)
-            basis = above.down + above.up @ refl
-    r = refl[..., 0, 0]
+            basis = _top_basis(above, refl)
+    r = refl[..., 0, 0] + media[0].reference[..., 0, 0]
     if last is None:
         return Response(r, None, None)
     amp = None
     for i, x in enumerate(reversed(transfers)):  # source side first
-        if i > 0 and media[i].decay is not None:
-            amp = media[i].decay[..., :, None] * amp
+        if i > 0 and media[i].propagator is not None:
+            e = media[i].propagator
+            amp = (np.diagonal(e, axis1=-2, axis2=-1)[..., :, None] * amp
+                   if media[i].diagonal else e @ amp)
         with np.errstate(under="ignore"):
             amp = x if amp is None else x @ amp
     t = amp[..., 0, 0]
