@@ -45,8 +45,8 @@ from dataclasses import KW_ONLY, dataclass, field, replace
 
 import numpy as np
 
-from . import checks, multilayer
-from .bands import Bands, band_average
+from . import batch, checks, multilayer
+from .bands import Bands
 from .errors import ModelRangeWarning
 from .finite_size import Panel
 from .incidence import (
@@ -446,7 +446,18 @@ class Stack:
         return self._average(f, incidence, theta_max_deg, rtol)
 
     def _average(self, f, incidence, theta_max_deg, rtol):
-        """:meth:`average_transmission` for checked frequencies, without warnings."""
+        """:meth:`average_transmission` for checked frequencies, without warnings: the
+        batched kernel of :mod:`noisebudget.batch` (this stack as a batch of one), or
+        :meth:`_average_nested` for stacks it does not take."""
+        if batch.batchable(self):
+            return batch.average_transmissions([self], f, incidence, theta_max_deg, rtol,
+                                               warn=False)[0]
+        return self._average_nested(f, incidence, theta_max_deg, rtol)
+
+    def _average_nested(self, f, incidence, theta_max_deg, rtol):
+        """Incidence average by the stack's own route, frequency block by block: the
+        cascade or the general solve, and the nested azimuth average where a closed form
+        is missing."""
         if incidence not in INCIDENCE:
             raise ValueError(f"incidence must be one of {INCIDENCE}, got {incidence!r}")
         if incidence == "normal":
@@ -512,8 +523,8 @@ class Stack:
         """
         edges = checks.frequencies(np.concatenate([bands.lower, bands.upper]), "band edges")
         self._warn_ranges(edges)
-        tau = band_average(lambda f: self._average(f, incidence, theta_max_deg, 3 * rtol),
-                           bands, rtol)
+        tau = batch.band_transmissions([self], bands, incidence, theta_max_deg, rtol,
+                                       warn=False)[0]
         return -10 * np.log10(np.maximum(tau, 10 ** (-TL_CAP_DB / 10)))
 
     def _surface(self, omega, theta, backing, azimuth=None):
