@@ -23,8 +23,10 @@ _WHERE = {  # public name -> module that defines it
     "Septum": "layers", "Solid": "layers", "Air": "media",
     "standard_atmosphere": "media", "ratings": "ratings", "Stack": "stack",
     "load_stack": "stackfile", "parse_stack": "stackfile", "load_study": "study",
-    "parse_study": "study", "run_study": "study",
+    "parse_study": "study", "run_study": "study", "run_sweep": "trade.sweep",
+    "run_optimization": "trade.optimize",
 }
+_SUBPACKAGES = ("trade",)  # nb.trade.sweep_study and the rest of the trade engine
 
 if TYPE_CHECKING:  # for editors and type checkers; nothing is imported at run time
     from .bands import a_weighting, c_weighting, octave_bands, third_octave_bands
@@ -36,19 +38,23 @@ if TYPE_CHECKING:  # for editors and type checkers; nothing is imported at run t
     from .stack import Stack
     from .stackfile import load_stack, parse_stack
     from .study import load_study, parse_study, run_study
+    from .trade.optimize import run_optimization
+    from .trade.sweep import run_sweep
 
 
 def __getattr__(name):
-    """Load a public name's module on first use."""
+    """Load a public name's module (or the ``trade`` subpackage) on first use."""
     if name in _WHERE:
         value = getattr(import_module(f".{_WHERE[name]}", __name__), name)
         globals()[name] = value
         return value
+    if name in _SUBPACKAGES:
+        return import_module(f".{name}", __name__)
     raise AttributeError(f"module 'noisebudget' has no attribute {name!r}")
 
 
 def __dir__():
-    return sorted([*globals(), *_WHERE])
+    return sorted([*globals(), *_WHERE, *_SUBPACKAGES])
 
 
 class _Package(types.ModuleType):
@@ -67,5 +73,5 @@ sys.modules[__name__].__class__ = _Package
 __all__ = ["a_weighting", "c_weighting", "octave_bands", "ratings", "third_octave_bands",
            "Air", "AirGap", "InputError", "InputErrors", "ModelRangeWarning", "Panel", "Plate",
            "Porous", "Sandwich", "Screen", "Septum", "Solid", "Stack", "__version__",
-           "load_stack", "load_study", "run_study", "parse_stack", "parse_study",
-           "standard_atmosphere"]
+           "load_stack", "load_study", "run_optimization", "run_study", "run_sweep",
+           "parse_stack", "parse_study", "standard_atmosphere"]

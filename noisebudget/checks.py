@@ -12,7 +12,8 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = ["ArgumentError", "MAX_ANGLE_POINTS", "MAX_FREQUENCIES", "MAX_FREQUENCY_HZ",
-           "MAX_PER_OCTAVE", "MIN_FREQUENCY_HZ", "angles", "azimuths", "frequencies",
+           "MAX_PER_OCTAVE", "MAX_VARIANTS", "MIN_FREQUENCY_HZ", "angles", "azimuths",
+           "frequencies",
            "frequency"]
 
 MIN_FREQUENCY_HZ = 1e-3
@@ -20,6 +21,7 @@ MAX_FREQUENCY_HZ = 1e5
 MAX_FREQUENCIES = 1_000_000    # about 8 min of field-incidence TL for a five-layer stack
 MAX_PER_OCTAVE = 1000
 MAX_ANGLE_POINTS = 20_000_000  # frequencies x angles of one tau array (320 MB)
+MAX_VARIANTS = 100_000         # variants of one trade study (grid product or samples)
 
 
 class ArgumentError(ValueError):

@@ -188,7 +188,7 @@ def cmd_catalog(args) -> int:
 
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser with every subcommand."""
-    from . import __version__, cli_study, cli_tile
+    from . import __version__, cli_study, cli_tile, cli_trade
     from .cliargs import add_quiet, quantity, quantity_list
 
     p = OneLineParser(prog="noisebudget", description=(
@@ -234,6 +234,7 @@ def build_parser() -> argparse.ArgumentParser:
     c.set_defaults(func=cmd_catalog)
     cli_tile.register(sub)
     cli_study.register(sub)
+    cli_trade.register(sub)
     return p
 
 

@@ -151,8 +151,13 @@ def cmd_check(args) -> int:
 
     loaded = load_study(args.study)
     inp = loaded.inputs
+    trade = loaded.trade
+    varies = (f"; {plural(len(trade.parameters), '[[vary]] entry', '[[vary]] entries')} on "
+              f"{trade.package!r}, {plural(trade.count, 'variant')} ({trade.mode})"
+              if trade.parameters else "")
     print(f"{args.study}: OK: {plural(len(inp.packages), 'package')}, "
-          f"{plural(len(inp.zones), 'zone')}, {plural(len(inp.conditions), 'condition')}")
+          f"{plural(len(inp.zones), 'zone')}, {plural(len(inp.conditions), 'condition')}"
+          f"{varies}")
     return 0
 
 

@@ -41,12 +41,15 @@ LAYER_META: dict[str, Field] = {
 
 @dataclass(frozen=True)
 class LayerEntry:
-    """A layer built from a file, its display label, and its entry's meta keys
-    (:data:`LAYER_META`) as read."""
+    """A layer built from a file, its display label, its entry's meta keys
+    (:data:`LAYER_META`) as read, and the SI values of its class's own keys (``schema``,
+    defaults filled in) that built it: ``type(layer).from_values(values)`` rebuilds it,
+    and a trade study's variant is that call with one value changed."""
 
     layer: Layer
     label: str
     meta: dict = field(default_factory=dict)
+    values: dict = field(default_factory=dict, compare=False)
 
 
 def type_field() -> Field:

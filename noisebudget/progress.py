@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import sys
 
-__all__ = ["configure", "enabled", "steps", "track"]
+__all__ = ["configure", "counter", "enabled", "steps", "track"]
 
 DELAY_S = 1.0  # nothing is drawn for work shorter than this
 _setting: bool | None = None  # None: shown when standard error is a terminal
@@ -32,11 +32,11 @@ def enabled() -> bool:
     return bool(isatty and isatty())
 
 
-def _bar(total, what, unit):
+def _bar(total, what, unit, initial=0):
     from tqdm import tqdm
 
     return tqdm(total=total, desc=what, unit=unit, delay=DELAY_S, file=sys.stderr,
-                leave=False, dynamic_ncols=True)
+                leave=False, dynamic_ncols=True, initial=initial)
 
 
 def track(iterable, total: int | None = None, what: str = "", unit: str = "step"):
@@ -93,3 +93,33 @@ class steps:
     def __exit__(self, *exc) -> None:
         if self._bar is not None:
             self._bar.close()
+
+
+class counter:
+    """Progress through a count of items finished in groups of any size (variants of a
+    trade study finishing chunk by chunk), starting from ``initial`` (a resumed run).
+
+    Called as ``counter(total, initial)`` it has the form the trade runs take for their
+    ``progress`` argument; ``update(n)`` adds ``n`` finished items and ``close()`` ends
+    the display.
+    """
+
+    def __init__(self, total: int, initial: int = 0, what: str = "", unit: str = "item"):
+        self._bar = _bar(total, what, unit, initial) if enabled() else None
+
+    def update(self, n: int = 1) -> None:
+        """``n`` more items are done."""
+        if self._bar is not None:
+            self._bar.update(n)
+
+    def close(self) -> None:
+        """End the display (it leaves no line behind)."""
+        if self._bar is not None:
+            self._bar.close()
+            self._bar = None
+
+    def __enter__(self) -> counter:
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()

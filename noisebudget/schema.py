@@ -561,7 +561,8 @@ def describe(spec: Field) -> str:
                "frequencies in Hz (ISO 266, 10 Hz to 20 kHz), e.g. [100, 125, 160]",
                "frequencies": "list of rising frequencies in Hz (plain numbers, 10 Hz to "
                "20 kHz), e.g. [125, 1000, 4000]",
-               "layers": "array of layer tables (see *Layer entries*)", "raw": "any value",
+               "layers": "array of layer tables (see *Layer entries*)",
+               "raw": "value as the varied key takes it (its unit, its range)",
                "table": "table", "tables": "array of tables", "named": "tables keyed by name"
                }.get(kind, kind)
     if spec.shape == "list":

@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import hashlib
 import warnings
+from dataclasses import replace
 from pathlib import Path
 
 from .catalog import CATALOG_META, load_catalog
@@ -139,10 +140,10 @@ def _layer_entry(entry: dict, where: str, reader: Reader):
         meta = {k: v for k, v in values.items() if k in LAYER_META}
         label = meta.pop("name", None)
         first = meta.pop("bonding", None)  # the contact of the first inserted layer only
-        out = [LayerEntry(e.layer, f"{label}: {e.label}" if label else e.label,
-                          {**e.meta, **meta}) for e in got]
+        out = [replace(e, label=f"{label}: {e.label}" if label else e.label,
+                       meta={**e.meta, **meta}) for e in got]
         if first is not None:
-            out[0] = LayerEntry(out[0].layer, out[0].label, {**out[0].meta, "bonding": first})
+            out[0] = replace(out[0], meta={**out[0].meta, "bonding": first})
         return out
     table = dict(entry)
     label = None
@@ -178,7 +179,8 @@ def _layer_entry(entry: dict, where: str, reader: Reader):
     meta = {k: v for k, v in values.items() if k in LAYER_META}
     if label and "structure" not in meta and label.split(".")[0] in STRUCTURE_GROUPS:
         meta["structure"] = True
-    return [LayerEntry(layer, meta.get("name") or label or layer.type_name, meta)]
+    own = {k: v for k, v in values.items() if k in type(layer).schema}
+    return [LayerEntry(layer, meta.get("name") or label or layer.type_name, meta, own)]
 
 
 def include_stack(rel: str, where: str, reader: Reader, host: str = "stack"):

@@ -1,5 +1,6 @@
 """Study files (TOML): title block, air, cabin, conditions, zones, interior sources,
-packages (stacks, leaks, flanking), targets.
+packages (stacks, leaks, flanking), targets, and the trade-study keys (``[[vary]]``,
+``[trade]``; their rules across keys in :mod:`noisebudget.tradefile`).
 
 The keys are declared section by section below (dicts of
 :class:`~noisebudget.layers.base.Field`, read by :mod:`noisebudget.schema`), so that a
@@ -18,14 +19,17 @@ from pathlib import Path
 import numpy as np
 
 from .catalog import load_catalog
+from .checks import MAX_VARIANTS
 from .layers.base import Field
 from .media import Air
 from .schema import INVALID, Reader, join, read_table, read_toml, suggest
 from .stackfile import AIR_STATE, air_from, bonding_of, include_stack, read_layers, structure_of
+from .trade.variants import DISTRIBUTIONS, TRADE_MODES
 
 __all__ = ["AIR_SECTION", "CABIN", "CONDITION", "HOLE", "INTERIOR_SOURCE", "LoadedStudy",
            "PACKAGE", "PACKAGE_ZONE", "SLIT", "STUDY_FILE", "STUDY_SECTION", "TARGETS",
-           "TARGET_METRICS", "TONE", "ZONE", "load_study", "parse_study", "run_study"]
+           "TARGET_METRICS", "TONE", "TRADE", "VARY", "ZONE", "load_study", "parse_study",
+           "run_study"]
 
 LEVEL = {"positive": False, "ge": -50.0, "le": 200.0}  # a band or tone level, dB
 BANDWIDTH = Field("choice", choices=("third", "octave"), default="third",
@@ -194,6 +198,52 @@ TARGETS: dict[str, Field] = {
 }
 TARGET_METRICS = tuple(TARGETS)
 
+# ------------------------------------------------------------------ [[vary]], [trade]
+# values, range, mean, std, low, high and mode are read against the varied key's own
+# field (its unit and range) once the entry's address is known (tradefile.read_trade)
+VARY: dict[str, Field] = {
+    "name": Field("name", doc="label of the parameter in tables and figures (default: its "
+                              "address, e.g. sidewall.layer2.thickness)"),
+    "package": Field("name", required=True,
+                     doc="the package varied (every entry varies the same package)"),
+    "zone": Field("name", doc="the zone whose stack holds the layer (none for "
+                              "installation_mass)"),
+    "layer": Field("integer", ge=1, needs=("zone",),
+                   doc="1-based index of the layer in the zone's stack, layers of inserted "
+                       "stack files counted in place"),
+    "cell": Field("integer", ge=1, needs=("layer",),
+                  doc="1-based index of the tile layer's cell kind whose key is varied"),
+    "key": Field("name", required=True,
+                 doc="the layer's (or cell's) stack-file key, or installation_mass"),
+    "values": Field("raw", shape="list", group="spread", required=True,
+                    doc="grid: the values, each as the key takes it (\"40 mm\", 0.3)"),
+    "range": Field("raw", shape="list", length=2, group="spread", required=True,
+                   needs=("steps",), doc="grid: [low, high], steps values evenly spaced"),
+    "steps": Field("integer", ge=2, le=MAX_VARIANTS, needs=("range",),
+                   doc="number of values of range"),
+    "distribution": Field("choice", choices=tuple(DISTRIBUTIONS), group="spread",
+                          required=True,
+                          doc="monte-carlo: normal (mean, std; low and high truncate it), "
+                              "uniform (low, high) or triangular (low, mode, high)"),
+    "mean": Field("raw", needs=("distribution",), doc="normal: the mean"),
+    "std": Field("raw", needs=("distribution",),
+                 doc="normal: the standard deviation (> 0, in the key's unit)"),
+    "low": Field("raw", needs=("distribution",), doc="the lowest value drawn"),
+    "high": Field("raw", needs=("distribution",), doc="the highest value drawn"),
+    "mode": Field("raw", needs=("distribution",), doc="triangular: the most likely value"),
+    "notes": Field("text", doc="free text"),
+}
+TRADE: dict[str, Field] = {
+    "mode": Field("choice", choices=TRADE_MODES, default="grid",
+                  doc="grid: every combination of the entries' values; monte-carlo: "
+                      "samples drawn from their distributions"),
+    "samples": Field("integer", ge=1, le=MAX_VARIANTS, default=1000,
+                     doc="monte-carlo: number of variants drawn"),
+    "seed": Field("integer", allow_zero=True, default=0,
+                  doc="seed of the random draws and of the optimiser: the same seed gives "
+                      "the same variants and the same optimum"),
+}
+
 # ------------------------------------------------------------------ the file
 STUDY_FILE: dict[str, Field] = {
     "study": Field("table", schema=STUDY_SECTION, doc="title block and options"),
@@ -208,15 +258,25 @@ STUDY_FILE: dict[str, Field] = {
     "package": Field("tables", schema=PACKAGE, required=True, unique="name",
                      doc="treatment packages: a stack per zone, leaks, flanking"),
     "targets": Field("table", schema=TARGETS, doc="targets for every condition"),
+    "vary": Field("tables", schema=VARY, unique="name",
+                  doc="trade study: one value of one package each (a layer key of a zone's "
+                      "stack, a tile cell's key, or installation_mass)"),
+    "trade": Field("table", schema=TRADE, doc="trade study: grid or Monte Carlo, samples, "
+                                              "seed"),
 }
 
 
 class LoadedStudy:
-    """A validated study: the budget inputs plus the files it read (for hashes)."""
+    """A validated study: the budget inputs, the files it read (for hashes) and its
+    trade-study keys (a :class:`~noisebudget.trade.variants.TradeSpec`, empty without
+    ``[[vary]]`` entries)."""
 
-    def __init__(self, inputs, files: dict):
+    def __init__(self, inputs, files: dict, trade=None):
+        from .trade.variants import TradeSpec
+
         self.inputs = inputs
         self.files = files          # path -> sha256 of every input file
+        self.trade = trade if trade is not None else TradeSpec()
 
 
 def _sha256(path: Path) -> str:
@@ -420,18 +480,21 @@ def _leaks(zv, n_layers, area, where, reader):
     return tuple(out) if ok else INVALID
 
 
-_ZONE_ITEMS = ("stacks", "structure", "leaks", "flanking", "installation")
+_ZONE_ITEMS = ("stacks", "structure", "leaks", "flanking", "installation", "entries")
 
 
 def _packages(entries, zone_names, zones, airs, reader, package_names):
     """Packages with, per zone, stack, structure flags, leaks, flanking override and
     installation mass; ``based_on`` copies all of these, and a zone the package gives
-    itself replaces everything it inherited for that zone."""
+    itself replaces everything it inherited for that zone.
+
+    Returns the packages and, per package name, its zones' layer entries (for a trade
+    study's ``[[vary]]`` entries) and the zones it gives itself."""
     from .budget import Package
     from .stack import Stack
 
     areas = {z.name: z.area for z in zones}
-    out = []
+    out, layer_entries, own = [], {}, {}
     done: dict[str, tuple] = {}   # name -> (per-zone items, zones whose stack failed)
     for i, v in _valid(entries):
         where = f"package[{i}]"
@@ -483,6 +546,7 @@ def _packages(entries, zone_names, zones, airs, reader, package_names):
                                            tuple(e.label for e in entries_z),
                                            bonding_of(entries_z))
             items["structure"][zname] = structure_of(entries_z)
+            items["entries"][zname] = tuple(entries_z)
             items["leaks"][zname] = leaks
             if flanking is not None:
                 items["flanking"][zname] = flanking
@@ -494,11 +558,13 @@ def _packages(entries, zone_names, zones, airs, reader, package_names):
                                "missing: every package needs a stack for every zone")
         if "name" in v:
             done[v["name"]] = (items, failed)
+            layer_entries[v["name"]] = items["entries"]
+            own[v["name"]] = tuple(z for z in v.get("zone", {}) if z in items["stacks"])
             if "installation_mass" in v and set(items["stacks"]) >= {z.name for z in zones}:
                 out.append(Package(v["name"], items["stacks"], v["installation_mass"],
                                    v.get("notes", ""), items["leaks"], items["flanking"],
                                    items["structure"], items["installation"]))
-    return out
+    return out, layer_entries, own
 
 
 def _targets(v):
@@ -563,8 +629,8 @@ def parse_study(data: dict, file: str = "", base_dir=None) -> LoadedStudy:
     sources = _interior_sources(v.get("interior_source"), conditions, reader, zone_names,
                                 _raw_names(data, "condition"))
     package_names = _raw_names(data, "package")
-    packages = _packages(v.get("package"), zone_names, zones, (ext, cab), reader,
-                         package_names)
+    packages, layer_entries, own = _packages(v.get("package"), zone_names, zones,
+                                             (ext, cab), reader, package_names)
     names = [p.name for p in packages]
     baseline = st.get("baseline", names[0] if names else "")
     if "baseline" in st and baseline not in package_names:
@@ -577,6 +643,10 @@ def parse_study(data: dict, file: str = "", base_dir=None) -> LoadedStudy:
                 reader.problem(f"condition[{i}].bands_hz", "bands do not match: the cabin "
                                                            "absorption must cover every band "
                                                            "of every condition")
+    from .tradefile import read_trade
+
+    trade = read_trade(data, v, packages, layer_entries, own, package_names, zone_names,
+                       reader)
     reader.raise_problems()
     used = sorted(reader.shared.get("catalog_used", {}))
     for key in used:
@@ -597,7 +667,7 @@ def parse_study(data: dict, file: str = "", base_dir=None) -> LoadedStudy:
                          cabin_a, cabin_bands, st["exterior_level"], st["incidence"],
                          st.get("theta_max_deg"), st["include_package_absorption"],
                          _targets(v.get("targets", {})), meta, tuple(sources))
-    return LoadedStudy(inputs, dict(files))
+    return LoadedStudy(inputs, dict(files), trade)
 
 
 def load_study(path) -> LoadedStudy:

@@ -13,7 +13,7 @@ import noisebudget
 
 PACKAGE = Path(noisebudget.__file__).parent
 FILE_BOUNDARY = {"units", "schema", "stackfile", "study", "catalog", "layerfile", "keyref",
-                 "resources", "cli", "cli_study", "cli_tile"}
+                 "tradefile", "resources", "cli", "cli_study", "cli_tile", "cli_trade"}
 PHYSICS = ["media", "stack", "incidence", "finite_size", "bands", "ratings", "budget", "tiles",
            *[f"layers.{m.name}" for m in pkgutil.iter_modules([str(PACKAGE / "layers")])],
            "layers"]

@@ -185,6 +185,8 @@ def test_progress_silent_unless_shown(monkeypatch):
     with progress.steps(2, "report") as s:
         s.start("one")
         s.start("two")
+    with progress.counter(10, 4, "sweep", "variant") as c:  # a resumed count
+        c.update(6)
     assert buf.getvalue() == ""
     monkeypatch.setattr(progress, "DELAY_S", 0.0)
     progress.configure(True)
@@ -193,10 +195,14 @@ def test_progress_silent_unless_shown(monkeypatch):
         with progress.steps(2, "report") as s:
             s.start("figures")
             s.start("layout")
+        c = progress.counter(10, 4, "sweep", "variant")
+        c.update(6)
+        c.close()
     finally:
         progress.configure(None)
     shown = buf.getvalue()
     assert "transmission loss" in shown and "report:" in shown
+    assert "sweep:" in shown and "4/10" in shown and "variant" in shown  # resumed at 4
     progress.configure(False)
     try:
         buf.truncate(0)

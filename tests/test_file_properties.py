@@ -20,7 +20,7 @@ import numpy as np
 import tomli_w
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
-from test_malformed import PART, STACK, STUDY
+from test_malformed import END, INSTALLATION, MC, NORMAL, PART, STACK, STUDY, VARY, WINDOW
 
 import noisebudget as nb
 from noisebudget.budget import compute_budget
@@ -38,7 +38,9 @@ KEYS = ["layer", "type", "use", "stack", "thickness", "name", "cell", "tension",
         "loss_factor", "share", "frame", "pitch", "radius", "mass", "mass_radius",
         "exterior_offset_db", "offset_bands_hz", "flanking_tl_db", "flanking_bands_hz", "leak",
         "shape", "width", "length", "diameter", "depth", "count", "behind_layer",
-        "interior_source", "conditions", "bandwidth", "structure", "bonding", "junk"]
+        "interior_source", "conditions", "bandwidth", "structure", "bonding", "vary",
+        "trade", "key", "values", "range", "steps", "distribution", "mean", "std", "low",
+        "high", "mode", "samples", "seed", "junk"]
 PLAUSIBLE = ["25 mm", "0 mm", "-1 mm", "1 kg/m^2", "2780 kg/m^3", "73 GPa", "20 degC",
              "80 N/m", "20 m^2", "0.5 s", "102 Hz", "1 g", "20000 Pa*s/m^2", "nan mm",
              "1e400 m", "plate", "air", "septum", "porous", "tile", "jca", "delany-bazley",
@@ -47,7 +49,9 @@ PLAUSIBLE = ["25 mm", "0 mm", "-1 mm", "1 kg/m^2", "2780 kg/m^3", "73 GPa", "20 
              "$x^2$", "a\x07b", [100, 125, 160, 200, 250], [100, 101, 102, 101, 100],
              ["0.5 s"] * 5, 0, 1, 0.3, 0.98, 78, 90, 91, -5, 1e6, True, False,
              "slit", "hole", "octave", "third", "1 mm", "3000 m", 2, [63, 125, 1000],
-             [125], [1000, 100], ["cruise"], ["taxi"]]
+             [125], [1000, 100], ["cruise"], ["taxi"], "installation_mass",
+             "poisson_ratio", "normal", "uniform", "triangular", "grid", "monte-carlo",
+             ["30 mm", "70 mm"], ["1 kg/m^2"], [0.2, 0.4]]
 
 scalars = st.one_of(
     st.booleans(), st.integers(-10**6, 10**6), st.floats(allow_nan=True, allow_infinity=True),
@@ -75,10 +79,12 @@ def _at(doc, path):
 
 
 @st.composite
-def mutated(draw, base: str):
+def mutated(draw, base: str, within=()):
+    """``base`` with one to three mutations (at paths under the sections ``within``, when
+    given, and their own keys)."""
     doc = copy.deepcopy(tomllib.loads(base))
     for _ in range(draw(st.integers(1, 3))):
-        paths = list(_paths(doc))
+        paths = [p for p in _paths(doc) if not within or p[0] in within] or list(_paths(doc))
         path = draw(st.sampled_from(paths))
         parent, last = _at(doc, path[:-1]), path[-1]
         how = draw(st.sampled_from(["replace", "replace", "drop", "add", "repeat"]))
@@ -121,6 +127,26 @@ def _study_runs(path):
     assert len(result.summary) == len(loaded.inputs.packages) * len(loaded.inputs.conditions)
 
 
+def _trade_runs(path):
+    """A trade study that loads builds every variant it is asked for, and the first ones
+    evaluate to finite masses and levels."""
+    from noisebudget.trade.evaluate import build_model, evaluate
+    from noisebudget.trade.variants import design
+
+    try:
+        loaded = nb.load_study(path)
+    except InputError:
+        return
+    spec = loaded.trade
+    if not spec.parameters:
+        return
+    assert spec.count <= 100_000
+    ev = evaluate(build_model(loaded), design(spec)[:2])
+    names = list(build_model(loaded).names)
+    for m in ("treatment_mass_kg", "max_interior_dba"):
+        assert np.all(np.isfinite(ev.metrics[:, names.index(m)]))
+
+
 def _quiet(fn, path):
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", ModelRangeWarning)
@@ -148,6 +174,26 @@ def test_mutated_stack_files_load_or_say_why(doc):
 @given(mutated(STUDY))
 def test_mutated_study_files_load_or_say_why(doc):
     _quiet(_study_runs, _write(doc, "study.toml"))
+
+
+TRADE_STUDY = STUDY.replace(END, END + MC + NORMAL + WINDOW.replace(
+    "values = [0.3, 0.6]", 'distribution = "uniform"\nlow = 0.3\nhigh = 0.4'))
+GRID_STUDY = STUDY.replace(END, END + VARY + INSTALLATION)
+
+
+def test_the_trade_base_files_sweep():
+    _quiet(_trade_runs, _write(tomllib.loads(TRADE_STUDY), "base-trade.toml"))
+    _quiet(_trade_runs, _write(tomllib.loads(GRID_STUDY), "base-grid.toml"))
+    assert nb.load_study(FOLDER / "base-trade.toml").trade.count == 20
+
+
+@settings(max_examples=30, deadline=None,
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
+@given(st.one_of(mutated(TRADE_STUDY, ("vary", "trade")),
+                 mutated(GRID_STUDY, ("vary", "trade"))))
+def test_mutated_trade_studies_load_or_say_why(doc):
+    # what check accepts, sweep computes: every accepted [[vary]] makes valid variants
+    _quiet(_trade_runs, _write(doc, "trade.toml"))
 
 
 @settings(max_examples=40, deadline=None)

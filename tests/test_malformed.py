@@ -132,6 +132,18 @@ AIRY = '[receiver_air]\ntemperature = "30 degC"\n' + PART
 LOOP = '[[layer]]\ntype = "septum"\nsurface_density = "1 kg/m^2"\n[[layer]]\nstack = "loop.toml"\n'
 
 
+END = "behind_layer = 2\n"  # the last line of STUDY: trade-study tables go after it
+VARY = '[[vary]]\npackage = "septum"\nzone = "wall"\nlayer = 2\nkey = "thickness"\n' \
+       'values = ["30 mm", "70 mm"]\n'
+INSTALLATION = '[[vary]]\npackage = "septum"\nkey = "installation_mass"\n' \
+               'values = ["0.1 kg/m^2", "0.3 kg/m^2"]\n'
+WINDOW = '[[vary]]\npackage = "septum"\nzone = "window"\nlayer = 1\n' \
+         'key = "poisson_ratio"\nvalues = [0.3, 0.6]\n'
+NORMAL = '[[vary]]\npackage = "septum"\nzone = "wall"\nlayer = 2\nkey = "thickness"\n' \
+         'distribution = "normal"\nmean = "50 mm"\nstd = "2 mm"\n'
+MC = '[trade]\nmode = "monte-carlo"\nsamples = 20\nseed = 3\n'
+
+
 @dataclass(frozen=True)
 class Case:
     """One corpus file: which base it edits and how, and the line it must give."""
@@ -434,6 +446,100 @@ REFUSED = [
          "package[2].zone.wall.layer[1].structure", "expected true or false, got string"),
     Case("structure-layer-number", S, 'name = "trim"', 'name = "trim"\nstructure = 1',
          "layer[4].structure", "expected true or false, got integer 1"),
+    # trade studies: [[vary]] and [trade], read by the schema, each value against the
+    # varied key's own field; the zone "wall" of "septum" is part.toml (plate, air)
+    # inserted, then a septum
+    *[Case(f"vary-{cid}", T, END, END + block, key, words) for cid, block, key, words in [
+        ("package-unknown", VARY.replace('"septum"', '"sept"'), "vary[1].package",
+         "no package 'sept'; did you mean 'septum'?"),
+        ("zone-unknown", VARY.replace('zone = "wall"', 'zone = "wal"'), "vary[1].zone",
+         "no zone 'wal'; did you mean 'wall'?"),
+        ("layer-beyond", VARY.replace("layer = 2", "layer = 4"), "vary[1].layer",
+         "no layer 4: package 'septum' has 3 layers in zone 'wall'"),
+        ("layer-zero", VARY.replace("layer = 2", "layer = 0"), "vary[1].layer",
+         "must be >= 1, got 0"),
+        ("layer-without-zone", VARY.replace('zone = "wall"\n', ""), "vary[1].layer",
+         "needs zone as well"),
+        ("key-unknown", VARY.replace('key = "thickness"', 'key = "thicknes"'), "vary[1].key",
+         "has no key 'thicknes'; did you mean 'thickness'?"),
+        ("cell-not-tile", VARY.replace("layer = 2", "layer = 2\ncell = 1"), "vary[1].cell",
+         "has no cells: only a tile has"),
+        ("value-negative", VARY.replace('"30 mm"', '"-5 mm"'), "vary[1].values[1]",
+         "must be >= 0 m"),
+        ("value-wrong-unit", VARY.replace('"30 mm"', '"5 kg"'), "vary[1].values[1]",
+         "'5 kg' is not a length"),
+        ("value-bare", VARY.replace('"30 mm"', "5"), "vary[1].values[1]", "bare number 5"),
+        ("value-slip", VARY.replace('"30 mm"', '"300 km"'), "vary[1].values[1]",
+         "outside the range of a length"),
+        ("values-empty", VARY.replace('["30 mm", "70 mm"]', "[]"), "vary[1].values",
+         "empty list"),
+        ("steps-one", VARY.replace('values = ["30 mm", "70 mm"]',
+                                   'range = ["30 mm", "70 mm"]\nsteps = 1'),
+         "vary[1].steps", "must lie in [2, 100000], got 1"),
+        ("range-without-steps", VARY.replace('values = ["30 mm", "70 mm"]',
+                                             'range = ["30 mm", "70 mm"]'),
+         "vary[1].range", "needs steps as well"),
+        ("range-reversed", VARY.replace('values = ["30 mm", "70 mm"]',
+                                        'range = ["70 mm", "30 mm"]\nsteps = 3'),
+         "vary[1].range", "high must be greater than low"),
+        ("range-three", VARY.replace('values = ["30 mm", "70 mm"]',
+                                     'range = ["30 mm", "50 mm", "70 mm"]\nsteps = 3'),
+         "vary[1].range", "expected 2 values, got 3"),
+        ("no-spread", VARY.replace('values = ["30 mm", "70 mm"]\n', ""), "vary[1].values",
+         "missing: give values or range or distribution"),
+        ("grid-too-big", VARY.replace('values = ["30 mm", "70 mm"]',
+                                      'range = ["30 mm", "70 mm"]\nsteps = 400')
+         + INSTALLATION.replace('values = ["0.1 kg/m^2", "0.3 kg/m^2"]',
+                                'range = ["0.1 kg/m^2", "0.3 kg/m^2"]\nsteps = 400'),
+         "vary", "the grid has 160000 variants"),
+        ("same-value-twice", VARY + VARY.replace('"30 mm", "70 mm"', '"40 mm"'), "vary[2]",
+         "varies the same value as vary[1]"),
+        ("two-packages", VARY + INSTALLATION.replace('"septum"', '"bare"'),
+         "vary[2].package", "a trade study varies one package: vary[1] varies 'septum'"),
+        ("duplicate-name", VARY.replace("[[vary]]", '[[vary]]\nname = "gap"')
+         + INSTALLATION.replace("[[vary]]", '[[vary]]\nname = "gap"'), "vary[2].name",
+         "duplicate name 'gap' (also vary[1])"),
+        ("installation-with-zone", INSTALLATION.replace("[[vary]]",
+                                                        '[[vary]]\nzone = "wall"'),
+         "vary[1].zone", "installation_mass belongs to the whole package"),
+        ("installation-negative", INSTALLATION.replace('"0.1 kg/m^2"', '"-0.1 kg/m^2"'),
+         "vary[1].values[1]", "must be >= 0 kg/m^2"),
+        ("poisson-above-half", WINDOW, "vary[1].values[2]", "must lie in [0, 0.5), got 0.6"),
+        ("plate-mixed-sets", WINDOW.replace('key = "poisson_ratio"',
+                                            'key = "surface_density"').replace(
+            "[0.3, 0.6]", '["10 kg/m^2"]'), "vary[1]", "at 10 kg/m^2: surface_density: give "
+         "density and youngs_modulus, or surface_density and bending_stiffness, not both"),
+        ("distribution-in-grid", NORMAL, "vary[1].distribution",
+         'a distribution needs [trade] mode = "monte-carlo"'),
+        ("values-in-monte-carlo", MC + VARY, "vary[1].values",
+         'mode "monte-carlo" draws from distributions'),
+        ("normal-unbounded", MC + NORMAL.replace('"2 mm"', '"20 mm"'), "vary[1].low",
+         "reaches values the key does not allow (it must be >= 0 m"),
+        ("normal-std-zero", MC + NORMAL.replace('std = "2 mm"', 'std = "0 mm"'),
+         "vary[1].std", "must be > 0"),
+        ("normal-missing-std", MC + NORMAL.replace('std = "2 mm"\n', ""), "vary[1].std",
+         "missing: a normal distribution needs mean and std"),
+        ("uniform-with-mean", MC + NORMAL.replace('"normal"', '"uniform"').replace(
+            'std = "2 mm"', 'low = "30 mm"\nhigh = "60 mm"'), "vary[1].mean",
+         "not a key of a uniform distribution (its keys: high, low)"),
+        ("triangular-mode-outside", MC + NORMAL.replace('"normal"', '"triangular"').replace(
+            'mean = "50 mm"\nstd = "2 mm"', 'low = "30 mm"\nmode = "80 mm"\nhigh = "60 mm"'),
+         "vary[1].mode", "must lie between low and high"),
+        ("distribution-unknown", MC + NORMAL.replace('"normal"', '"gaussian"'),
+         "vary[1].distribution", "unknown value 'gaussian'"),
+        ("mean-without-distribution", VARY.replace("[[vary]]", '[[vary]]\nmean = "1 mm"'),
+         "vary[1].mean", "needs distribution as well"),
+        ("samples-in-grid", "[trade]\nsamples = 10\n" + VARY, "trade.samples",
+         'samples apply to mode = "monte-carlo" only'),
+        ("samples-zero", MC.replace("samples = 20", "samples = 0") + NORMAL, "trade.samples",
+         "must lie in [1, 100000], got 0"),
+        ("samples-above-maximum", MC.replace("samples = 20", "samples = 100001") + NORMAL,
+         "trade.samples", "must lie in [1, 100000], got 100001"),
+        ("mode-unknown", '[trade]\nmode = "grd"\n' + VARY, "trade.mode",
+         "did you mean 'grid'?"),
+        ("vary-single-table", VARY.replace("[[vary]]", "[vary]"), "vary",
+         "expected an array of tables ([[vary]]), got a single table"),
+    ]],
     # files that are not TOML text
     Case("binary", T, None, b"\x00\x01\xff\xfe garbage \x80", "", "not UTF-8 text"),
     Case("latin-1", S, None, 'title = "caf\xe9"\n'.encode("latin-1"), "", "not UTF-8 text"),
@@ -477,8 +583,10 @@ def test_refused_through_the_python_api(tmp_path, case):
 @pytest.mark.parametrize("case", REFUSED, ids=[c.id for c in REFUSED])
 def test_refused_through_the_command_line(tmp_path, capsys, case):
     path = _write(tmp_path, case)
+    out = str(tmp_path / "out")
     commands = [["tl", str(path)]] if case.base == S else [
-        ["check", str(path)], ["run", str(path), "-o", str(tmp_path / "out")]]
+        ["check", str(path)], ["run", str(path), "-o", out], ["sweep", str(path), "-o", out],
+        ["optimize", str(path), "-o", out]]
     for argv in commands:
         assert main(argv) == 2
         err = capsys.readouterr().err.splitlines()
@@ -525,6 +633,11 @@ ACCEPTED = [
     Case("source-every-condition", T, 'conditions = ["cruise"]\n', "", "", ""),
     Case("one-offset", T, "exterior_offset_db = [2, 4, 1]\noffset_bands_hz = [63, 125, 1000]",
          "exterior_offset_db = -3", "", ""),
+    # a grid over a layer of an inserted stack file and the installation mass, and a
+    # Monte Carlo study: they load, run, and sweep
+    Case("vary-grid", T, END, END + VARY + INSTALLATION, "", ""),
+    Case("vary-monte-carlo", T, END, END + MC + NORMAL + WINDOW.replace(
+        "values = [0.3, 0.6]", 'distribution = "uniform"\nlow = 0.3\nhigh = 0.4'), "", ""),
 ]
 
 
@@ -539,6 +652,18 @@ def test_accepted_edge_cases_load_and_run(tmp_path, case):
     res = nb.run_study(path)
     assert np.all(np.isfinite(res.summary["interior_dba"]))
     assert len(res.summary) == 4
+
+
+@pytest.mark.parametrize("case", [c for c in ACCEPTED if c.id.startswith("vary-")],
+                         ids=lambda c: c.id)
+def test_accepted_trade_studies_sweep(tmp_path, case):
+    # what check accepts, sweep completes: every variant's metrics finite
+    from noisebudget.trade.sweep import sweep_study
+
+    res = sweep_study(_write(tmp_path, case), workers=1)
+    assert len(res.variants) == (4 if case.id == "vary-grid" else 20)
+    assert np.all(np.isfinite(res.variants["max_interior_dba"]))
+    assert np.all(np.isfinite(res.variants["treatment_mass_kg"]))
 
 
 def test_edge_case_names_run_through_every_report(tmp_path, capsys):

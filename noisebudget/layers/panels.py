@@ -372,7 +372,9 @@ class Plate(Layer):
         return cls(m, d, values.get("loss_factor", 0.01), h,
                    in_plane_tension=values.get("in_plane_tension"),
                    curvature_radius=values.get("curvature_radius", np.inf),
-                   youngs_modulus=e, poisson_ratio=nu)
+                   youngs_modulus=e,
+                   # without a Young's modulus the ratio enters nothing: keep the default
+                   poisson_ratio=nu if e is not None else 0.3)
 
 
 Plate.schema = {

@@ -60,6 +60,13 @@ NAMES = {
     "temperature_degc": ("temperature",), "pressure_kpa": ("static pressure",),
     "density_kg_m3": ("density", "kg/m³", "0.000"), "sound_speed_m_s": ("speed of sound",),
     "tile_peak_hz": ("first TL peak", "Hz", "0.0"), "tile_dip_hz": ("first TL dip", "Hz", "0.0"),
+    "treatment_mass_kg": ("treatment mass",), "treatment_kg_m2": ("treatment areal mass",),
+    "max_interior_dba": ("interior level, loudest condition",),
+    "max_sil4_db": ("SIL4, loudest condition",),
+    "min_margin_dba": ("margin, worst condition",),
+    "min_margin_sil4_db": ("margin SIL4, worst condition",),
+    "min_margin_limit_db": ("margin to limit spectrum, worst condition",),
+    "meets_targets": ("meets every target",),
 }
 
 
@@ -77,7 +84,19 @@ class Column:
 
 
 def column(key: str, header: str | None = None) -> Column:
-    """The column for ``key``: its unit from :data:`NAMES` or the end of the key."""
+    """The column for ``key``: its unit from :data:`NAMES` or the end of the key.
+
+    A key with a qualifier in brackets, ``interior_dba[cruise]`` (a trade study's metric of
+    one condition or zone), is the column of ``interior_dba`` with the qualifier after its
+    words: "interior level, cruise (dBA)".
+    """
+    if key.endswith("]") and "[" in key:
+        base, qualifier = key[:-1].split("[", 1)
+        c = column(base)
+        words = c.header[:-len(c.unit) - 3] if c.unit else c.header
+        head = header or (f"{words}, {qualifier} ({c.unit})" if c.unit
+                          else f"{words}, {qualifier}")
+        return Column(key, head, c.style, c.unit)
     words, unit, style = key.replace("_", " "), "", TEXT
     for end, u, s in UNIT_ENDINGS:
         if key.endswith(end) and len(key) > len(end):
@@ -95,10 +114,15 @@ def column(key: str, header: str | None = None) -> Column:
 
 @dataclass
 class Table:
-    """Columns and rows of plain values (str, float, int or None)."""
+    """Columns and rows of plain values (str, float, int or None).
+
+    A column whose style is ``"row"`` holds values of different units (one quantity per
+    row); ``styles`` then gives each row's number style.
+    """
 
     columns: list
     rows: list = field(default_factory=list)
+    styles: list | None = None
 
     @classmethod
     def from_frame(cls, df: pd.DataFrame, keys=None, headers=None) -> Table:

@@ -153,14 +153,15 @@ def _cells(table, blank: int = 0) -> list:
     from .model import TEXT, fmt
 
     out, prev = [], None
-    for row in table.rows:
+    for i, row in enumerate(table.rows):
         cells, same = [], prev is not None
         for j, (v, c) in enumerate(zip(row, table.columns, strict=True)):
             same = same and j < blank and prev[j] == v
-            text = "" if same else fmt(v, c.style)
-            cls = "n" if c.style != TEXT else ("wrap" if len(text) > 28 else "")
-            if c.key.startswith("margin") and isinstance(v, float):
-                cls += " fail" if fmt(v, c.style).startswith("-") else " pass"
+            style = table.styles[i] if c.style == "row" else c.style
+            text = "" if same else fmt(v, style)
+            cls = "n" if style != TEXT else ("wrap" if len(text) > 28 else "")
+            if c.key.startswith(("margin", "min_margin", "slack")) and isinstance(v, float):
+                cls += " fail" if fmt(v, style).startswith("-") else " pass"
             cells.append((text, cls.strip()))
         out.append({"cells": cells, "group": blank and cells[0][0] != "" and prev is not None})
         prev = row

@@ -86,7 +86,8 @@ def _title_block(ws, tb: dict):
     c = _put(ws, 1, 1, tb["title"])
     c.font = Font(bold=True, size=13)
     _put(ws, 2, 1, f"programme: {tb['programme']}   revision: {tb['revision']}   "
-                   f"date: {tb['date']}   author: {tb['author']}   baseline: {tb['baseline']}")
+                   f"date: {tb['date']}   author: {tb['author']}   "
+                   f"{tb.get('baseline_label', 'baseline')}: {tb['baseline']}")
     c = _put(ws, 3, 1, f"input hash (SHA-256): {tb['input_hash']}   {tb['tool']}   "
                        "engineering estimates: see the Cautions sheet")
     c.font = Font(size=8, color="555555")
@@ -99,6 +100,7 @@ def _sheet(wb, name: str, table: Table, tb: dict, row_styles=None, widths=None):
 
     ws = wb.create_sheet(name)
     _title_block(ws, tb)
+    row_styles = row_styles or table.styles
     h = HEADER_ROW
     for j, col in enumerate(table.columns, start=1):
         c = _put(ws, h, j, col.header)
