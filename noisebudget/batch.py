@@ -54,13 +54,15 @@ from .incidence import (
 )
 from .layers.base import FluidElement, SheetElement
 
-__all__ = ["average_transmissions", "band_transmissions", "batchable", "structure"]
+__all__ = ["average_rows", "average_transmissions", "band_transmissions", "batchable",
+           "structure"]
 
 _BLOCK = 8192        # points per block of the integrand: temporaries stay in the cache
 _ROWS = 4096         # rows (variant, frequency) per angle-quadrature call: bounded memory
 _FEATURE_STEPS = (2, 4)
 _KNEE_STEPS = (1, 0)
 _SCAN = 0
+_INNER = 3.0        # angle tolerance inside band averages, per unit of the band tolerance
 _LOW_LOSS = 0.1      # |Im| / |Re| of rho and K below which a fluid layer resonates sharply
 
 
@@ -651,6 +653,40 @@ def average_transmissions(stacks, f_hz, incidence: str = "field",
     return out
 
 
+def average_rows(stacks, index, f_hz, incidence: str = "field",
+                 theta_max_deg: float | None = None, rtol: float = 3e-3,
+                 warn: bool = True) -> np.ndarray:
+    """Incidence-averaged tau of ``stacks[index[i]]`` at ``f_hz[i]``, per point (1-D).
+
+    Each value equals the stack's own :meth:`~noisebudget.stack.Stack.average_transmission`
+    at that frequency, bit for bit; points of stacks of one :func:`structure` are
+    computed together.
+    """
+    from . import checks
+
+    f = checks.frequencies(f_hz)
+    index = np.asarray(index, dtype=np.intp)
+    theta_max = _theta_max(incidence, theta_max_deg)
+    stacks = list(stacks)
+    if warn:
+        for s in dict.fromkeys(stacks):
+            s._warn_ranges(f)
+    out = np.empty(f.size)
+    groups, others = _groups(stacks)
+    for idx in groups:  # a loop over structures, each a batch of variants
+        local = np.full(len(stacks), -1)
+        local[idx] = np.arange(len(idx))
+        sel = np.flatnonzero(local[index] >= 0)
+        if sel.size:
+            out[sel] = _average_rows(_Batch([stacks[i] for i in idx]), local[index[sel]],
+                                     f[sel], incidence, theta_max, rtol)
+    for i in others:
+        sel = np.flatnonzero(index == i)
+        if sel.size:
+            out[sel] = stacks[i]._average_nested(f[sel], incidence, theta_max_deg, rtol)
+    return out
+
+
 def band_transmissions(stacks, bands: Bands, incidence: str = "field",
                        theta_max_deg: float | None = None, rtol: float = 3e-3,
                        warn: bool = True) -> np.ndarray:
@@ -674,7 +710,7 @@ def band_transmissions(stacks, bands: Bands, incidence: str = "field",
     for idx in groups:  # a loop over structures, each a batch of variants
         batch = _Batch([stacks[i] for i in idx])
         out[idx] = band_average(lambda g, f, batch=batch: _average_rows(
-            batch, g, f, incidence, theta_max, 3 * rtol), bands, rtol, groups=len(idx))
+            batch, g, f, incidence, theta_max, _INNER * rtol), bands, rtol, groups=len(idx))
     for i in others:
         s = stacks[i]
         out[i] = band_average(lambda f, s=s: s._average_nested(f, incidence, theta_max_deg,

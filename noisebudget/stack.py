@@ -527,6 +527,25 @@ class Stack:
                                        warn=False)[0]
         return -10 * np.log10(np.maximum(tau, 10 ** (-TL_CAP_DB / 10)))
 
+    @classmethod
+    def band_transmission_losses(cls, stacks, bands: Bands, incidence: str = "field",
+                                 theta_max_deg: float | None = None,
+                                 rtol: float = 3e-3) -> np.ndarray:
+        """Band TL of many stacks at once, shape (nv, nb), each row bit for bit that
+        stack's :meth:`band_transmission_loss`: stacks of one structure (variants of a
+        trade study) are computed as one batch (:mod:`noisebudget.batch`)."""
+        tau = batch.band_transmissions(stacks, bands, incidence, theta_max_deg, rtol)
+        return -10 * np.log10(np.maximum(tau, 10 ** (-TL_CAP_DB / 10)))
+
+    @classmethod
+    def average_transmissions(cls, stacks, f_hz, incidence: str = "field",
+                              theta_max_deg: float | None = None,
+                              rtol: float = 3e-3) -> np.ndarray:
+        """Incidence-averaged tau of many stacks at once, shape (nv, nf), each row bit for
+        bit that stack's :meth:`average_transmission` (batched as
+        :meth:`band_transmission_losses`)."""
+        return batch.average_transmissions(stacks, f_hz, incidence, theta_max_deg, rtol)
+
     def _surface(self, omega, theta, backing, azimuth=None):
         """Normal surface impedance for omega (nf, 1) and angles theta (nf or 1, nth)."""
         if backing not in ("rigid", "receiver"):
