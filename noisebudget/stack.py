@@ -435,8 +435,10 @@ class Stack:
 
         ``normal`` evaluates theta = 0; ``field`` (default limit 78 deg) and ``diffuse``
         (90 deg) apply Paris' formula with the adaptive quadrature of
-        :func:`noisebudget.incidence.paris_average` to relative accuracy ``rtol``, over
-        the azimuth too when the stack is not :attr:`isotropic`. With a :attr:`panel`,
+        :func:`noisebudget.incidence.paris_average_critical` (through
+        :mod:`noisebudget.batch`, this stack as a batch of one) to relative accuracy
+        ``rtol``, over the azimuth too when the stack is not :attr:`isotropic` (in closed
+        form for one direction-dependent sheet, else nested). With a :attr:`panel`,
         the radiated side is windowed to the bay (normal incidence too); a bay's
         radiation efficiency can exceed 1 (a baffled piston's peaks near
         ``k sqrt(S) = 4``), so a nearly transparent stack in a bay is held at ``tau = 1``.
