@@ -59,8 +59,8 @@ __all__ = ["average_rows", "average_transmissions", "band_transmissions", "batch
 
 _BLOCK = 8192        # points per block of the integrand: temporaries stay in the cache
 _ROWS = 4096         # rows (variant, frequency) per angle-quadrature call: bounded memory
-_FEATURE_STEPS = (2, 4)
-_KNEE_STEPS = (1, 0)
+_FEATURE_STEPS = 3   # linear extrapolations towards a feature's pole
+_KNEE_STEPS = 1
 _SCAN = 0
 _INNER = 3.0        # angle tolerance inside band averages, per unit of the band tolerance
 _LOW_LOSS = 0.1      # |Im| / |Re| of rho and K below which a fluid layer resonates sharply
@@ -199,7 +199,7 @@ class _Rows:
                 q = self.omega**2 * rho / bulk
                 real = not (np.any(np.imag(rho)) or np.any(np.imag(bulk)))
                 self.steps.append(("fluid", np.real(q) if real else q + 0j,
-                                   1j * self.omega * rho * d, 1j / (self.omega * rho * d), d,
+                                   1j * self.omega * rho * d, 1j / (self.omega * rho), d,
                                    real, rho, bulk))
                 self.mass.append(None)
             elif isinstance(el, SheetElement):
@@ -334,102 +334,39 @@ class _Rows:
         return p, v, y1, y2abs, scale, kt2, trace, om
 
     def den(self, rows, t, cmap):
-        """The denominator ``Y1 P + V`` (unscaled) at complex points ``t`` of ``cmap``, one
-        per row, continued analytically off the real axis (isotropic stacks).
+        """The denominator ``Y1 P + V`` (scaled by the fluid layers' ``exp(-|Im kz d|)``,
+        which has no zeros) at one real point ``t`` of ``cmap`` per row (isotropic
+        stacks)."""
+        u, q, _ = cmap(t[:, None])
+        p, v, y1 = self._state(rows, u, q)[:3]
+        return (y1 * p + v)[:, 0]
 
-        Every fluid layer's entries are entire functions of ``kz^2`` (``cos(kz d)``,
-        ``sin(kz d) / kz``, ``kz sin(kz d)``), the sheets' impedances polynomials or
-        rational functions of the trace wavenumber, and the two half-spaces' admittances
-        are continued as ``t`` itself where the map removed their square roots.
-        """
-        k1, om = self.k1[rows], self.omega[rows]
-        u_c, u_e = cmap.u_critical, cmap.u_e
-        front = t.real >= 0
-        tt = t * t
-        u = np.where(front, u_e * (1.0 - tt), u_c + tt)
-        if u_e == u_c:
-            root_q = np.where(front, np.sqrt(u_c) * t, 1j * t)   # sqrt(q), continued
-        else:
-            root_q = np.where(front, np.sqrt((u_c - u_e) + u_e * tt + 0j), 1j * t)
-        root_1 = t if u_e == 1.0 else np.sqrt(1.0 - u + 0j)   # cos(theta1), continued
-        y1 = root_1 / self.z1
-        v = k1 * root_q / (om * self.rho2) + 0j
-        p = np.ones(t.shape, complex)
-        kt2 = k1 * k1 * u
-        kt = k1 * np.sqrt(u + 0j)
-        for i in range(len(self.steps) - 1, -1, -1):
-            step = self.steps[i]
-            if step is None:
-                continue
-            kind = step[0]
-            if kind == "sheet":
-                p = p + step[1][rows] * v
-            elif kind == "angle":
-                z = self._angle_impedance(step[1], rows, om[:, None], kt[:, None])[:, 0]
-                p = p + z * v
-            else:
-                x = np.sqrt(step[1][rows] - kt2 + 0j) * step[4][rows]
-                cs, sn = np.cos(x), np.sin(x)
-                sinc = np.where(x == 0, 1.0, sn / np.where(x == 0, 1.0, x))
-                p, v = cs * p + step[2][rows] * sinc * v, step[3][rows] * x * sn * p + cs * v
-        return y1 * p + v
-
-    def dips(self, which, cmap, m: int):
-        """Local minima of ``|den|`` on ``m`` points of the first segment, for the rows
-        ``which`` (bool, n); (n, m) with NaN elsewhere: guesses for :meth:`poles`."""
-        n = self.omega.size
-        out = np.full((n, m), np.nan)
-        r = np.flatnonzero(which)
-        if not r.size:
-            return out
-        a, b = cmap.segments[0]
-        t = a + (b - a) * (np.arange(m) + 0.5) / m
-        tt = np.broadcast_to(t, (r.size, m))
-        u, q, _ = cmap(tt)
-        p, v, y1 = self._state(r, u, q)[:3]
-        d = y1 * p + v
-        mag = d.real**2 + d.imag**2
-        left = np.concatenate([np.full((r.size, 1), np.inf), mag[:, :-1]], axis=1)
-        right = np.concatenate([mag[:, 1:], np.full((r.size, 1), np.inf)], axis=1)
-        dip = (mag < left) & (mag <= right)
-        out[r] = np.where(dip, tt, np.nan)
-        return out
-
-    def poles(self, t0, cmap, real_steps: int = 3, complex_steps: int = 0):
+    def poles(self, t0, cmap, steps: int = 2):
         """Complex zeros of the denominator next to the real points ``t0`` (n, p) of
-        ``cmap`` (NaN: none). First ``real_steps`` linear extrapolations from real points
-        (each from the real part of the last estimate: the local Lorentzian fit of the
-        integrand's peak), then ``complex_steps`` Newton steps on the analytic
-        continuation (:meth:`den`; derivative by a small real step). Those that do not
-        settle are NaN: they only shape the first panels, the adaptive quadrature does
-        the rest.
+        ``cmap`` (NaN: none): ``steps`` linear extrapolations from real points, each
+        from the real part of the last estimate (the local Lorentzian fit of the
+        integrand's peak; the layers are evaluated at real angles only). They only
+        shape the first panels: the adaptive quadrature does the rest.
         """
         n, k = t0.shape
         r = np.repeat(np.arange(n), k)
-        t = t0.ravel().astype(complex)
+        t = t0.ravel()
         ok = np.isfinite(t)
         r, t = r[ok], t[ok]
-        lo = np.where(t.real >= 0, cmap.segments[0][0], -np.inf)
-        hi = np.where(t.real >= 0, 1.0, 0.0)
+        lo = np.where(t >= 0, cmap.segments[0][0], -np.inf)
+        hi = np.where(t >= 0, 1.0, 0.0)
         if len(cmap.segments) > 1:
-            lo = np.where(t.real >= 0, lo, cmap.segments[1][0])
+            lo = np.where(t >= 0, lo, cmap.segments[1][0])
         h = 1e-7
-        est = t
+        est = t + 0j
         with np.errstate(all="ignore"):
-            for _ in range(real_steps):  # each over all rows and guesses
-                base = np.clip(np.where(np.isfinite(est.real), est.real, t.real), lo, hi - h)
-                d0 = self.den(r, base + 0j, cmap)
-                d1 = self.den(r, base + h + 0j, cmap)
+            for _ in range(steps):  # each over all rows and guesses
+                base = np.clip(np.where(np.isfinite(est.real), est.real, t), lo, hi - h)
+                d0 = self.den(r, base, cmap)
+                d1 = self.den(r, base + h, cmap)
                 est = base - d0 * h / (d1 - d0)
-            step = np.zeros(t.shape)
-            for _ in range(complex_steps):
-                d0 = self.den(r, est, cmap)
-                d1 = self.den(r, est + h, cmap)
-                step = d0 * h / (d1 - d0)
-                est = est - step
-        settled = np.isfinite(est) & (np.abs(step) < 1e-3 * np.maximum(np.abs(est.imag), 1e-6))
         out = np.full(n * k, np.nan + 0j)
-        out[np.flatnonzero(ok)] = np.where(settled, est, np.nan)
+        out[np.flatnonzero(ok)] = np.where(np.isfinite(est), est, np.nan)
         return out.reshape(n, k)
 
     def _tau(self, rows, u, q):
@@ -497,19 +434,20 @@ def _fluid_entries(step, rows, kt2):
     """Scaled matrix entries ``(cs, m12, m21, y)`` of a fluid layer at the points:
     ``cs = cos(x) e^-y``, ``m12 = j omega rho d sinc(x) e^-y``, ``m21 = j kz sin(x) e^-y /
     (omega rho)`` with ``x = kz d``, ``y = |Im x|``, in real arithmetic (``cos``, ``sin`` and
-    ``exp`` of reals; the root of ``kz^2`` by the half-angle formulas)."""
+    ``exp`` of reals; the root of ``kz^2`` by the half-angle formulas). The step's
+    prefactors are ``j omega rho d`` and ``j / (omega rho)`` per row."""
     _, q, c12, c21, d, real = step[:6]
     dd = d[rows][:, None]
     if real:  # lossless fluid: kz is real (propagating) or imaginary (evanescent)
         a = q[rows][:, None] - kt2
-        r = np.sqrt(np.abs(a))
-        r *= dd
+        k = np.sqrt(np.abs(a))                      # |kz|
+        r = k * dd
         prop = a >= 0
         if prop.all():
             cs, sr = np.cos(r), np.sin(r)
             with np.errstate(divide="ignore", invalid="ignore"):
                 sinc = sr / r
-            xs, y = r * sr, np.zeros(r.shape)
+            xs, y = k * sr, np.zeros(r.shape)       # kz sin(x)
         else:
             g = np.exp(-2.0 * np.where(prop, 0.0, r))
             rr = np.where(prop, r, 0.0)
@@ -517,7 +455,7 @@ def _fluid_entries(step, rows, kt2):
             with np.errstate(divide="ignore", invalid="ignore"):
                 sinc = np.where(prop, sr / r, (1.0 - g) / (2.0 * r))
             cs = np.where(prop, cr, (1.0 + g) / 2.0)
-            xs = np.where(prop, r * sr, -r * (1.0 - g) / 2.0)
+            xs = np.where(prop, k * sr, -k * (1.0 - g) / 2.0)
             y = np.where(prop, 0.0, r)
         small = r < 1e-6
         if small.any():
@@ -530,10 +468,9 @@ def _fluid_entries(step, rows, kt2):
         t = np.abs(b) / (2.0 * m)
     pos = a >= 0
     # x = +-sqrt(kz^2) d with Im x >= 0 (cos and sinc are even: the decaying root)
-    xr = np.copysign(np.where(pos, m, t), b)
-    y = np.where(pos, t, m)
-    xr *= dd
-    y *= dd
+    kr = np.copysign(np.where(pos, m, t), b)        # kz, with Im kz >= 0
+    ky = np.where(pos, t, m)
+    xr, y = kr * dd, ky * dd
     g = np.exp(-2.0 * y)
     gp, gm = 0.5 + 0.5 * g, 0.5 - 0.5 * g
     cr, sr = np.cos(xr), np.sin(xr)
@@ -546,8 +483,8 @@ def _fluid_entries(step, rows, kt2):
     if small.any():
         sinc = np.where(small, _complex(1.0 - (xr * xr - y * y) / 6.0, -xr * y / 3.0)
                         * np.exp(-y), sinc)
-    xsn = _complex(xr * sn_r - y * sn_i, xr * sn_i + y * sn_r)   # x sin(x) e^-y
-    return cs, c12[rows][:, None] * sinc, c21[rows][:, None] * xsn, y
+    ksn = _complex(kr * sn_r - ky * sn_i, kr * sn_i + ky * sn_r)   # kz sin(x) e^-y
+    return cs, c12[rows][:, None] * sinc, c21[rows][:, None] * ksn, y
 
 
 def _fluid(step, rows, kt2, p, v):
@@ -604,9 +541,9 @@ def _average_block(batch, var, f, incidence, theta_max, rtol):
             guesses = t_feats
             if _SCAN and t_feats.shape[1]:
                 guesses = rows.dips(np.isfinite(t_feats).any(axis=1), cmap, _SCAN)
-            poles = np.concatenate([rows.poles(guesses, cmap, *_FEATURE_STEPS),
+            poles = np.concatenate([rows.poles(guesses, cmap, _FEATURE_STEPS),
                                     rows.poles(np.concatenate(ends, axis=1), cmap,
-                                               *_KNEE_STEPS)], axis=1)
+                                               _KNEE_STEPS)], axis=1)
             tau = paris_average_critical(rows.tau, n, cmap, poles=poles, rtol=rtol)
         else:
             tau = paris_average_critical(rows.tau, n, cmap, splits=t_feats, rtol=rtol)

@@ -14,7 +14,7 @@ Usage: python tests/benchmarks/bench_trade.py [VARIANTS] [--fmax 10000] [--curve
 
 ``--fmax 10000`` extends the study's one-third octaves to 10 kHz (the exterior spectra
 continue 2 dB lower per band, demo values); ``--curved`` gives the sidewall skin a 1.35 m
-radius and 0.5 m x 0.2 m bays (direction-dependent: the closed-form azimuth mean).
+radius (direction-dependent: the closed-form azimuth mean).
 """
 
 import argparse
@@ -96,13 +96,11 @@ def _extend_to_10k(text: str) -> str:
 
 
 def _curved(text: str) -> str:
-    """The sidewall skin curved (1.35 m) in 0.5 m x 0.2 m bays (demo values)."""
-    text = text.replace(SIDEWALL, SIDEWALL.replace(
+    """The sidewall skin curved (1.35 m radius, pressurised by the cabin; demo value):
+    direction-dependent, its azimuth mean in closed form. (Study zones take no bay yet.)"""
+    return text.replace(SIDEWALL, SIDEWALL.replace(
         '{ use = "skin.al2024-t3-1.6mm" }',
         '{ use = "skin.al2024-t3-1.6mm", curvature_radius = "1.35 m" }'))
-    return text.replace('name = "sidewall"\narea = "62 m^2"\n',
-                        'name = "sidewall"\narea = "62 m^2"\npanel_width = "0.5 m"\n'
-                        'panel_height = "0.2 m"\n')
 
 
 def _count():
@@ -161,7 +159,7 @@ def main():
     if args.curved:
         text = _curved(text)
     text += VARY.format(n=n)
-    what = (f"demo sidewall ({'curved skin in bays' if args.curved else 'flat skin'}), "
+    what = (f"demo sidewall ({'curved skin' if args.curved else 'flat skin'}), "
             f"one-third octaves 50 Hz - {args.fmax / 1000:g} kHz")
     print(f"{n} variants of the {what}")
     with tempfile.TemporaryDirectory() as d:
