@@ -15,8 +15,8 @@ import re
 
 import numpy as np
 
-__all__ = ["cross_section", "exterior_spectra", "interior_spectra", "pareto_front",
-           "share_bars", "tile_curves", "tl_spectra", "trade_plot"]
+__all__ = ["cross_section", "dominant_strips", "exterior_spectra", "interior_spectra",
+           "pareto_front", "share_bars", "tile_curves", "tl_spectra", "trade_plot"]
 
 WIDTH = 7.2  # inches: the PDF's text width
 _TICKS = (31.5, 63, 125, 250, 500, 1000, 2000, 4000, 8000, 16000)
@@ -102,7 +102,7 @@ def exterior_spectra(conditions) -> str:
     ``conditions``: list of dicts with ``name``, ``band_hz``, ``level_db`` and ``tones``
     (a list of ``(name, frequency_hz, level_db)``).
     """
-    fig, axes = _panels(len(conditions), ncols=2)
+    fig, axes = _panels(len(conditions), ncols=2, height=1.85)
     lo = min(min(c["band_hz"]) for c in conditions)
     hi = max(max(c["band_hz"]) for c in conditions)
     levels = np.concatenate([np.concatenate([c["level_db"], [t[2] for t in c["tones"]]])
@@ -149,13 +149,21 @@ def _per_panel_lines(groups, packages, ylabel, extra=None, ncols=3):
 
 
 def tl_spectra(tl, packages, zones) -> str:
-    """Band TL of each package, one panel per zone."""
+    """Band TL of each package, one panel per zone: first the package alone (``tl_db``),
+    then the zone with its leaks and flanking path (``zone_tl_db``) where the table has
+    it."""
     groups = []
-    for z in zones:
-        d = tl[tl["zone"] == z]
-        groups.append((z, {p: (g["band_hz"].to_numpy(), g["tl_db"].to_numpy())
-                           for p, g in d.groupby("package", sort=False)}))
-    return _per_panel_lines(groups, packages, "transmission loss (dB)")
+    kinds = [("tl_db", "package alone")]
+    if "zone_tl_db" in tl:
+        kinds.append(("zone_tl_db", "with leaks and flanking"))
+    for key, words in kinds:
+        for z in zones:
+            d = tl[tl["zone"] == z]
+            groups.append((f"{z}: {words}" if len(kinds) > 1 else z,
+                           {p: (g["band_hz"].to_numpy(), g[key].to_numpy())
+                            for p, g in d.groupby("package", sort=False)}))
+    return _per_panel_lines(groups, packages, "transmission loss (dB)",
+                            ncols=len(zones) if len(zones) <= 4 else 3)
 
 
 def interior_spectra(bands, conditions, packages, limit=None) -> str:
@@ -172,21 +180,54 @@ def interior_spectra(bands, conditions, packages, limit=None) -> str:
                             ncols=2)
 
 
-def share_bars(shares, conditions, packages) -> str:
-    """Share of each contributor in the interior A-weighted energy, one panel per
-    condition, packages as bars."""
-    contributors = list(dict.fromkeys(shares["contributor"]))
-    col = colours(contributors)
-    fig, axes = _panels(len(conditions), ncols=2, height=0.35 * len(packages) + 0.9)
-    handles = {}
+def _contributor_legend(fig, contributors, colours, used=None):
+    """The contributors' key below the panels: a column per zone (its wall, leak and
+    flanking paths) and one for the interior sources."""
+    from .paths import HATCHES, SOURCE
+
+    plt = _plt()
+    columns: dict = {}
+    for label, zone, path in contributors:
+        if used is None or label in used:
+            columns.setdefault(SOURCE if path == SOURCE else zone, []).append((label, path))
+    if not columns:
+        return
+    rows = max(len(v) for v in columns.values())
+    handles, labels = [], []
+    for entries in columns.values():
+        for k in range(rows):
+            if k < len(entries):
+                label, path = entries[k]
+                handles.append(plt.Rectangle((0, 0), 1, 1, facecolor=colours[label],
+                                             hatch=HATCHES.get(path, ""), edgecolor="#333",
+                                             lw=0.3))
+                labels.append(label)
+            else:  # keeps each zone in its own column
+                handles.append(plt.Rectangle((0, 0), 1, 1, visible=False))
+                labels.append("")
+    fig.legend(handles, labels, loc="outside lower center", ncol=len(columns), fontsize=6.5)
+
+
+def share_bars(levels, conditions, packages, contributors, colours) -> str:
+    """Share of each path (zone and path, or interior source) in the interior
+    A-weighted energy, one panel per condition, packages as stacked bars.
+
+    ``levels``: rows of ``condition``, ``package``, ``contributor``, ``share_pct``;
+    ``contributors``: ``(label, zone, path)`` in order; ``colours``: label -> hex.
+    """
+    from .paths import HATCHES
+
+    col = {k: "#" + v for k, v in colours.items()}
+    fig, axes = _panels(len(conditions), ncols=2, height=0.3 * len(packages) + 0.8)
     for ax, c in zip(axes, conditions, strict=True):
-        d = shares[shares["condition"] == c]
+        d = levels[levels["condition"] == c]
         left = np.zeros(len(packages))
         y = np.arange(len(packages))[::-1]
-        for who in contributors:
-            e = d[d["contributor"] == who].set_index("package")["share_pct"]
+        for label, _, path in contributors:
+            e = d[d["contributor"] == label].set_index("package")["share_pct"]
             w = np.array([e.get(p, 0.0) for p in packages])
-            handles[who] = ax.barh(y, w, left=left, color=col[who], height=0.6)
+            ax.barh(y, w, left=left, color=col[label], height=0.62,
+                    hatch=HATCHES.get(path, ""), edgecolor="#333", lw=0.3)
             left += w
         ax.set_yticks(y)
         ax.set_yticklabels(packages)
@@ -194,7 +235,54 @@ def share_bars(shares, conditions, packages) -> str:
         ax.grid(axis="y", visible=False)
         ax.set_xlabel("share of interior A-weighted energy (%)")
         ax.set_title(c)
-    _legend_below(fig, list(handles.values()), list(handles), ncol=min(len(handles), 6))
+    _contributor_legend(fig, contributors, col)
+    return _svg(fig)
+
+
+def dominant_strips(dominant, conditions, packages, contributors, colours) -> str:
+    """The largest contributor of every band: one strip per package, one panel per
+    condition, coloured as in :func:`share_bars`.
+
+    ``dominant``: rows of ``condition``, ``package``, ``band_hz``, ``contributor``.
+    """
+    from matplotlib.colors import ListedColormap
+
+    from .paths import HATCHES
+
+    labels = [c[0] for c in contributors]
+    paths = {c[0]: c[2] for c in contributors}
+    index = {lab: i for i, lab in enumerate(labels)}
+    cmap = ListedColormap(["#" + colours[lab] for lab in labels])
+    bands = np.array(sorted(set(dominant["band_hz"])))
+    fig, axes = _panels(len(conditions), ncols=1, height=0.26 * len(packages) + 0.75,
+                        sharey=False)
+    for ax, c in zip(axes, conditions, strict=True):
+        d = dominant[dominant["condition"] == c].set_index(["package", "band_hz"])
+        grid = np.full((len(packages), len(bands)), np.nan)
+        for i, p in enumerate(packages):
+            for j, b in enumerate(bands):
+                if (p, b) in d.index:
+                    grid[i, j] = index[d.loc[(p, b), "contributor"]]
+        ax.pcolormesh(np.arange(len(bands) + 1), np.arange(len(packages) + 1), grid,
+                      cmap=cmap, vmin=-0.5, vmax=len(labels) - 0.5, edgecolors="white",
+                      linewidth=0.6)
+        for i in range(len(packages)):  # hatch the leak and flanking cells as in the key
+            for j in range(len(bands)):
+                if np.isfinite(grid[i, j]) and HATCHES.get(paths[labels[int(grid[i, j])]]):
+                    ax.add_patch(_plt().Rectangle((j, i), 1, 1, fill=False, lw=0,
+                                                  hatch=HATCHES[paths[labels[int(grid[i, j])]]],
+                                                  edgecolor="#333"))
+        ax.set_yticks(np.arange(len(packages)) + 0.5)
+        ax.set_yticklabels(packages)
+        ax.invert_yaxis()
+        ticks = [j for j, b in enumerate(bands) if b in _TICKS]
+        ax.set_xticks(np.array(ticks) + 0.5)
+        ax.set_xticklabels([_hz(bands[j]) for j in ticks])
+        ax.grid(False)
+        ax.set_xlabel("one-third-octave band (Hz)")
+        ax.set_title(c)
+    used = set(dominant["contributor"])
+    _contributor_legend(fig, contributors, {k: "#" + v for k, v in colours.items()}, used)
     return _svg(fig)
 
 
@@ -207,16 +295,19 @@ def pareto_front(mass, dba) -> list[int]:
     return sorted(keep, key=lambda i: mass[i])
 
 
-def trade_plot(summary, conditions, baseline, target_dba=None) -> str:
-    """Added mass against interior dBA, one panel per condition: every point labelled
-    with its package, the baseline boxed, the non-dominated packages joined."""
+def trade_plot(summary, conditions, baseline, target_dba=None,
+               mass_key: str = "treatment_mass_kg",
+               mass_label: str = "treatment mass per aircraft (kg)") -> str:
+    """Mass (``mass_key`` of the summary, by default the treatment mass per aircraft)
+    against interior dBA, one panel per condition: every point labelled with its package,
+    the baseline boxed, the non-dominated packages joined."""
     fig, axes = _panels(len(conditions), ncols=2, height=2.5, sharey=False)
     packages = list(dict.fromkeys(summary["package"]))
     col = colours(packages)
     handles = {}
     for ax, c in zip(axes, conditions, strict=True):
         d = summary[summary["condition"] == c].reset_index(drop=True)
-        x, y = d["added_mass_kg"].to_numpy(), d["interior_dba"].to_numpy()
+        x, y = d[mass_key].to_numpy(), d["interior_dba"].to_numpy()
         ax.scatter(x, y, c=[col[p] for p in d["package"]], zorder=3, s=18)
         order = np.argsort(y)
         for rank, i in enumerate(order):  # alternate label sides so neighbours part
@@ -232,7 +323,7 @@ def trade_plot(summary, conditions, baseline, target_dba=None) -> str:
         ax.margins(y=0.12)  # room for the labels above the highest point
         span = max(x.max() - x.min(), 1.0)
         ax.set_xlim(x.min() - 0.08 * span, x.max() + 0.35 * span)  # room for labels
-        ax.set_xlabel("added mass per aircraft (kg)")
+        ax.set_xlabel(mass_label)
         ax.set_ylabel("interior level (dBA)")
         ax.set_title(c)
     _legend_below(fig, list(handles.values()), list(handles))

@@ -6,16 +6,22 @@ A column's unit comes from the end of its name (``tl_db``, ``mass_kg``, ``area_m
 number format, so a column that a later budget adds is labelled and formatted without a
 change here. Numbers are never shown as ``-0.0``.
 
+This module holds the primitives (columns, tables, number styles, families, colours) and
+the results (summary, ratings, mass, tones, band levels, stacks, tiles); the inputs are
+in :mod:`.inputs`, the paths into the cabin in :mod:`.paths`, the assumptions and
+references in :mod:`.notes`, and :func:`build` gathers them all.
+
 Nothing here computes acoustics except through the library's own functions (tile
-curves come from :mod:`noisebudget.tiles`); everything else is selection, ordering and
-formatting of the budget's tables.
+curves come from :mod:`noisebudget.tiles`, ring frequencies and mounted tensions from
+the layers); everything else is selection, ordering and formatting of the budget's
+tables.
 """
 
 from __future__ import annotations
 
 import hashlib
 import math
-from dataclasses import dataclass, field, fields, is_dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
@@ -23,8 +29,11 @@ import pandas as pd
 
 from ..textout import plural
 
-__all__ = ["FAMILIES", "PALETTE", "Column", "Table", "build", "colours", "column", "fmt",
-           "in_study_order", "input_hash", "layer_family", "parameter_rows"]
+__all__ = ["FAMILIES", "PALETTE", "Column", "Table", "band_levels", "band_levels_all", "build",
+           "colours", "column", "fmt", "in_study_order", "input_hash", "layer_family",
+           "layer_notes", "mass_table", "parameter_rows", "ratings_table", "sig3_text",
+           "stacks_model", "stacks_table", "TOTAL_LABELS",
+           "summary_table", "tiles_model", "title_block", "tone_table"]
 
 # number styles: Excel format codes; "3sf" is three significant figures, chosen per cell
 GENERAL, MM, SIG3, TEXT = "General", "0.0#", "3sf", "@"
@@ -32,7 +41,8 @@ GENERAL, MM, SIG3, TEXT = "General", "0.0#", "3sf", "@"
 # name ending -> (unit shown, style); the first match wins, so longer endings come first
 UNIT_ENDINGS = (
     ("_kg_m2", "kg/m²", "0.00"), ("_kg_m3", "kg/m³", "0.0"), ("_dba", "dBA", "0.0"),
-    ("_db", "dB", "0.0"), ("_hz", "Hz", GENERAL), ("_kg", "kg", "0.0"), ("_m2", "m²", "0.0"),
+    ("_db", "dB", "0.0"), ("_hz", "Hz", GENERAL), ("_kg", "kg", "0.0"),
+    ("_mm2", "mm²", "0.0"), ("_m2", "m²", "0.0"),
     ("_m3", "m³", "0.0"), ("_mm", "mm", MM), ("_pct", "%", "0.0"), ("_m_s", "m/s", "0.0"),
     ("_kpa", "kPa", "0.00"), ("_degc", "°C", "0.0"), ("_deg", "deg", "0.0"),
     ("_s", "s", "0.00"), ("_g", "g", SIG3), ("_m", "m", "0.00"),
@@ -60,7 +70,17 @@ NAMES = {
     "temperature_degc": ("temperature",), "pressure_kpa": ("static pressure",),
     "density_kg_m3": ("density", "kg/m³", "0.000"), "sound_speed_m_s": ("speed of sound",),
     "tile_peak_hz": ("first TL peak", "Hz", "0.0"), "tile_dip_hz": ("first TL dip", "Hz", "0.0"),
-    "treatment_mass_kg": ("treatment mass",), "treatment_kg_m2": ("treatment areal mass",),
+    "zone_tl_db": ("zone TL, with leaks and flanking",),
+    "composite_zone_tl_db": ("composite zone TL, with leaks and flanking",),
+    "treatment_mass_kg": ("treatment mass per aircraft",),
+    "added_mass_kg": ("added mass over the baseline",),
+    "treatment_kg_m2": ("treatment with installation",),
+    "treatment_layers_kg_m2": ("treatment layers",), "structure_kg_m2": ("structure",),
+    "areal_mass_kg_m2": ("total areal mass",),
+    "band_share_pct": ("share of the band's energy",),
+    "open_area_mm2": ("open area",), "bay_width_mm": ("bay width",),
+    "bay_height_mm": ("bay height",), "level_dba": ("A-weighted level",),
+    "noise_reduction_dba": ("noise reduction",), "noise_reduction_db": ("noise reduction",),
     "max_interior_dba": ("interior level, loudest condition",),
     "max_sil4_db": ("SIL4, loudest condition",),
     "min_margin_dba": ("margin, worst condition",),
@@ -203,9 +223,11 @@ def colours(names) -> dict:
 
 # material families of the stack drawings: name, colour (Okabe-Ito palette), hatch
 FAMILIES = {
-    "skin / plate": ("#8c9bab", ""), "porous": ("#e6c25a", "..."),
+    "skin / plate": ("#8c9bab", ""), "porous": ("#e6c25a", "."),
     "air": ("#d8ecf8", ""), "septum": ("#7b3f98", ""), "trim / sandwich": ("#b07a3c", ""),
-    "tile": ("#009e73", "xx"), "screen": ("#cc79a7", "||"), "other": ("#bbbbbb", ""),
+    "tile": ("#009e73", "xx"), "screen": ("#cc79a7", "||"),
+    "foam, elastic frame": ("#e69f00", "o"), "elastic solid": ("#56606b", "\\\\"),
+    "other": ("#bbbbbb", ""),
 }
 
 
@@ -216,8 +238,10 @@ def layer_family(layer, label: str = "") -> str:
     group = label.split(".", 1)[0] if "." in label else ""
     if kind == "sandwich" or (kind == "plate" and group == "trim"):
         return "trim / sandwich"
+    if kind == "porous" and getattr(layer, "elastic", False):
+        return "foam, elastic frame"
     return {"plate": "skin / plate", "porous": "porous", "air": "air", "septum": "septum",
-            "tile": "tile", "screen": "screen"}.get(kind, "other")
+            "tile": "tile", "screen": "screen", "solid": "elastic solid"}.get(kind, "other")
 
 
 # layer parameter -> (unit shown, factor from SI, style)
@@ -271,52 +295,6 @@ def _param(name, value):
     return name, None if value is None else str(value), "-" if value is None else "", TEXT
 
 
-def describe(v) -> str:
-    """Short text for an input value of any shape (for inputs shown generically)."""
-    if v is None:
-        return "-"
-    if isinstance(v, str):
-        return v
-    if isinstance(v, (bool, np.bool_)):
-        return "yes" if v else "no"
-    if isinstance(v, (int, float, np.integer, np.floating)):
-        return fmt(float(v), SIG3)
-    if hasattr(v, "nominal"):  # a band set
-        nom = np.asarray(v.nominal)
-        return f"{nom[0]:g} to {nom[-1]:g} Hz ({plural(len(nom), 'band')})"
-    if is_dataclass(v):
-        name = getattr(v, "name", None)
-        return str(name) if name else "; ".join(f"{f.name} {describe(getattr(v, f.name))}"
-                                                for f in fields(v))
-    if isinstance(v, dict):
-        return "; ".join(f"{k}: {describe(x)}" for k, x in v.items()) or "-"
-    if isinstance(v, (list, tuple, np.ndarray)):
-        items = list(v)
-        if not items:
-            return "-"
-        text = ", ".join(describe(x) for x in items[:24])
-        return text + (", ..." if len(items) > 24 else "")
-    return str(v)
-
-
-def generic_table(objects, skip=()) -> Table:
-    """One row per dataclass object, one column per field (except ``skip``): numbers as
-    numbers with units from their names, everything else described in words."""
-    objects = list(objects)
-    if not objects:
-        return Table([])
-    keys = [f.name for f in fields(objects[0]) if f.name not in skip]
-    cols, rows = [], []
-    scalar = {k: all(isinstance(getattr(o, k), (int, float, np.integer, np.floating))
-                     and not isinstance(getattr(o, k), bool) for o in objects) for k in keys}
-    for k in keys:
-        c = column(k)
-        cols.append(c if scalar[k] else Column(k, c.header, TEXT, c.unit))
-    for o in objects:
-        rows.append([float(getattr(o, k)) if scalar[k] else describe(getattr(o, k))
-                     for k in keys])
-    return Table(cols, rows)
-
 
 # ---------------------------------------------------------------------------------------
 # the model of one study result
@@ -338,34 +316,56 @@ def in_study_order(df: pd.DataFrame, inp, keys) -> pd.DataFrame:
     return tmp.reset_index(drop=True)
 
 
-SUMMARY_KEYS = ("condition", "package", "mass_kg", "added_mass_kg", "interior_dba",
-                "sil4_db", "margin_dba", "margin_sil4_db", "margin_limit_db", "dba_gain",
-                "dba_gain_per_kg")
+SUMMARY_KEYS = ("condition", "package", "mass_kg", "treatment_mass_kg", "added_mass_kg",
+                "interior_dba", "sil4_db", "margin_dba", "margin_sil4_db", "margin_limit_db",
+                "dba_gain", "dba_gain_per_kg")
 
 
 def summary_table(result) -> Table:
-    """Package by condition: mass, added mass, dBA, SIL4, margins, gain per added kg."""
+    """Condition by package: mass and treatment mass per aircraft, added mass, dBA,
+    SIL4, margins, gain per added kg."""
     s = in_study_order(result.summary, result.inputs, ["condition", "package"])
-    return Table.from_frame(s, SUMMARY_KEYS, {"mass_kg": "mass per aircraft (kg)"})
+    return Table.from_frame(s, SUMMARY_KEYS, {"mass_kg": "mass per aircraft (kg)",
+                                              "added_mass_kg": "added mass (kg)"})
 
 
-def zone_table(result) -> Table:
-    """Ratings and mass per package and zone, then each package's total over its zones
-    (with the composite ratings when the ratings table has them)."""
+COMPOSITE = "composite, area-weighted"
+#: row labels of totals (drawn as such in the PDF)
+TOTAL_LABELS = frozenset({"all zones", "all paths", COMPOSITE})
+RATING_KEYS = ("stc", "rw", "c", "ctr", "oitc")
+
+
+def ratings_table(result) -> Table:
+    """Single-number ratings of each package's own TL per zone, then of its
+    area-weighted composite TL (the row ``composite, area-weighted``)."""
+    r = result.ratings.copy()
+    r["zone"] = r["zone"].replace({"composite": COMPOSITE})
+    zones = [z.name for z in result.inputs.zones]
+    r["_z"] = r["zone"].map({z: i for i, z in enumerate([*zones, COMPOSITE])})
+    r = in_study_order(r.sort_values("_z", kind="stable"), result.inputs, ["package"])
+    return Table.from_frame(r, ["package", "zone", *[k for k in RATING_KEYS if k in r]])
+
+
+def mass_table(result) -> Table:
+    """Mass per package and zone, split into airframe structure, treatment layers and
+    installation, per m² and per aircraft; then each package's total over its zones
+    (``all zones``: summed masses and areas, the area-weighted mean areal mass)."""
     inp = result.inputs
-    rat, mass = result.ratings.copy(), result.mass.copy()
-    composite = rat[rat["zone"] == "composite"].assign(zone="all zones")
-    rat = rat[rat["zone"] != "composite"]
-    sums = mass.groupby("package", sort=False).sum(numeric_only=True).reset_index()
+    m = result.mass.copy()
+    if "treatment_kg_m2" in m:
+        m["treatment_layers_kg_m2"] = m["treatment_kg_m2"] - m["installation_kg_m2"]
+        m["structure_kg_m2"] = m["stack_kg_m2"] - m["treatment_layers_kg_m2"]
+    sums = m.groupby("package", sort=False).sum(numeric_only=True).reset_index()
     sums["zone"] = "all zones"
+    for k in [c for c in sums.columns if c.endswith("_kg_m2")]:
+        sums[k] = np.nan  # an areal value does not add over zones
     if "area_m2" in sums and "mass_kg" in sums:
         sums["areal_mass_kg_m2"] = sums["mass_kg"] / sums["area_m2"]
-    for k in [c for c in sums.columns if c.endswith("_kg_m2") and c != "areal_mass_kg_m2"]:
-        sums[k] = np.nan  # an areal value does not add over zones
-    per_zone = mass.merge(rat, on=["package", "zone"], how="outer")
-    total = sums.merge(composite, on=["package", "zone"], how="left")
-    df = in_study_order(pd.concat([per_zone, total], ignore_index=True), inp, ["package", "zone"])
-    keys = ["package", "zone"] + [c for c in df.columns if c not in ("package", "zone")]
+    df = in_study_order(pd.concat([m, sums], ignore_index=True), inp, ["package", "zone"])
+    keys = ["package", "zone", "area_m2", "structure_kg_m2", "treatment_layers_kg_m2",
+            "installation_kg_m2", "areal_mass_kg_m2", "mass_kg", "treatment_mass_kg"]
+    keys += [c for c in df.columns if c not in keys and c not in ("stack_kg_m2",
+                                                                   "treatment_kg_m2")]
     return Table.from_frame(df, keys, {"mass_kg": "mass per aircraft (kg)"})
 
 
@@ -378,10 +378,12 @@ def tone_table(result) -> Table:
     t = t.sort_values(["condition", "tone_hz"], kind="stable",
                       key=lambda s: s if s.name == "tone_hz" else s.map(
                           {c.name: i for i, c in enumerate(result.inputs.conditions)}))
-    keys = ["condition", "tone", "tone_hz", "exterior_db", "package", "tl_db", "interior_db",
-            "dominant_zone", "dominant_path"]
-    return Table.from_frame(t, keys, {"tl_db": "TL at the tone (dB)",
-                                      "dominant_zone": "dominant zone"})
+    keys = ["condition", "tone", "tone_hz", "exterior_db", "package", "tl_db", "zone_tl_db",
+            "interior_db", "dominant_zone", "dominant_path"]
+    return Table.from_frame(t, keys, {"tl_db": "package TL at the tone (dB)",
+                                      "zone_tl_db": "zone TL at the tone (dB)",
+                                      "dominant_zone": "dominant zone",
+                                      "dominant_path": "dominant path"})
 
 
 def band_levels(result, condition: str) -> Table:
@@ -410,152 +412,76 @@ def band_levels_all(result) -> tuple:
     return Table(cols, rows), groups
 
 
-def contribution_shares(result) -> pd.DataFrame:
-    """Share of each contributor (zone, or zone and path) in the interior A-weighted
-    energy, per package and condition, in percent."""
-    from ..bands import a_weighting, third_octave_bands
 
-    c = result.contributions.copy()
-    label = c["zone"].astype(str) if "zone" in c else pd.Series("", index=c.index)
-    if "path" in c:
-        path = c["path"].fillna("wall").astype(str)
-        label = label.where(path == "wall", (label + " " + path).str.strip())
-    c["contributor"] = label.where(label.str.len() > 0, "other")
-    lo, hi = float(c["band_hz"].min()), float(c["band_hz"].max())
-    bands = third_octave_bands(lo, hi)
-    weight = dict(zip(bands.nominal, a_weighting(bands.centre), strict=True))
-    c["energy"] = 10 ** ((c["interior_db"] + c["band_hz"].map(weight)) / 10)
-    g = c.groupby(["package", "condition", "contributor"], sort=False)["energy"].sum()
-    total = g.groupby(level=[0, 1], sort=False).transform("sum")
-    out = (100 * g / total).rename("share_pct").reset_index()
-    return in_study_order(out, result.inputs, ["condition", "package"])
+def sig3_text(v) -> str:
+    """Three significant figures in words' text, no padding zeros (``0.01``, ``30``,
+    ``1.45``)."""
+    return f"{float(v):.3g}"
 
 
-# inputs shown by their own tables above; any other field of the study's inputs (added by
-# a later budget: interior sources, leaks, ...) is shown generically
-SHOWN_INPUTS = ("title", "conditions", "zones", "packages", "baseline", "cabin_area_m2",
-                "cabin_bands", "exterior_convention", "incidence", "theta_max_deg",
-                "include_package_absorption", "targets", "meta")
+_g = sig3_text
 
 
-def inputs_model(result) -> dict:
-    """The study's inputs as tables: air, cabin and exterior bands, tones, zones,
-    packages, targets, and any further inputs the study carries."""
-    inp = result.inputs
-    meta = inp.meta
-    air = meta.get("air", {})
-    air_rows = [[side, a.temperature - 273.15, a.pressure / 1e3, a.density, a.sound_speed]
-                for side, a in air.items()]
-    air_t = Table([Column("side", "air"), column("temperature_degc"), column("pressure_kpa"),
-                   column("density_kg_m3"), column("sound_speed_m_s")], air_rows)
-    # one row per band: each condition's exterior level, the cabin, the limit spectrum
-    conds = inp.conditions
-    nominal = sorted({float(b) for c in conds for b in c.bands.nominal}
-                     | {float(b) for b in inp.cabin_bands.nominal})
-    cols = [column("band_hz")] + [Column(f"exterior:{c.name}", f"{c.name} exterior (dB)",
-                                         "0.0", "dB") for c in conds]
-    per_cond = [dict(zip(map(float, c.bands.nominal), c.levels_db, strict=True))
-                for c in conds]
-    cabin = dict(zip(map(float, inp.cabin_bands.nominal), inp.cabin_area_m2, strict=True))
-    volume = meta.get("cabin", {}).get("volume_m3")
-    cols.append(column("cabin_absorption_m2"))
-    if volume:
-        cols.append(column("cabin_t60_s"))
-    limit = dict(zip(*inp.targets["limit"], strict=True)) if "limit" in inp.targets else {}
-    if limit:
-        cols.append(column("limit_db"))
-    rows = []
-    for b in nominal:
-        row = [b, *[pc.get(b) for pc in per_cond], cabin.get(b)]
-        if volume:  # Sabine, A = 0.161 V / T60, read backwards
-            row.append(0.161 * volume / cabin[b] if b in cabin else None)
-        if limit:
-            row.append(limit.get(b))
-        rows.append(row)
-    bands_t = Table(cols, rows)
-    tone_rows = [[c.name, name, float(f), float(lv)] for c in conds
-                 for f, lv, name in zip(c.tones_hz, c.tone_levels_db,
-                                        c.tone_names or [f"{x:g} Hz" for x in c.tones_hz],
-                                        strict=True)]
-    tones_t = Table([Column("condition", "condition"), Column("tone", "tone"),
-                     column("tone_hz"), column("exterior_db")],
-                    tone_rows)
-    zones_t = generic_table(inp.zones, skip=())
-    zones_t.columns = [column("area_m2") if c.key == "area" else c for c in zones_t.columns]
-    pkg_t = generic_table(inp.packages, skip=("stacks",))
-    pkg_t.columns = [Column(c.key, "installation (kg/m²)", "0.00", "kg/m²")
-                     if c.key == "installation_mass" else c for c in pkg_t.columns]
-    targets = []
-    if "dba" in inp.targets:
-        targets.append(("interior level", f"{fmt(inp.targets['dba'])} dBA"))
-    if "sil4" in inp.targets:
-        targets.append(("speech interference level SIL4", f"{fmt(inp.targets['sil4'])} dB"))
-    if limit:
-        targets.append(("interior limit spectrum", "per band, in the band table"))
-    given = meta.get("cabin", {}).get("absorption_given", "")
-    cabin_text = [("volume", f"{fmt(volume, SIG3)} m³" if volume else "-"),
-                  ("absorption given as", given.replace("_", " ") or "-"),
-                  ("absorption of the packages added",
-                   "yes" if inp.include_package_absorption else "no")]
-    # inputs the budget carries beyond these (interior sources, leaks, ...): each list of
-    # records becomes one more table, shown as it comes
-    extra = []
-    for name in [k for k in vars(inp) if k not in SHOWN_INPUTS]:
-        value = getattr(inp, name)
-        if isinstance(value, (list, tuple)) and value and is_dataclass(value[0]):
-            extra.append((name.replace("_", " "), generic_table(value)))
-        elif value not in (None, (), [], {}):
-            targets.append((name.replace("_", " "), describe(value)))
-    return {"air": air_t, "bands": bands_t, "tones": tones_t, "zones": zones_t,
-            "packages": pkg_t, "targets": targets, "cabin": cabin_text, "extra": extra,
-            "convention": inp.exterior_convention, "incidence": inp.incidence,
-            "theta_max_deg": inp.theta_max_deg}
+_POROUS_MODELS = {"delany-bazley": "Delany-Bazley", "miki": "Miki",
+                  "jca": "JCA, rigid frame", "jca-limp": "JCA, limp frame",
+                  "biot": "Biot, elastic frame"}
 
 
-def inputs_long(result, m: dict | None = None) -> tuple:
-    """The inputs that are not per band, one value a row (section, item, value, unit),
-    for the workbook: air, cabin, zones, packages, targets, the study's settings and any
-    further inputs the study carries. Returns the table and each row's number style."""
-    m = m or inputs_model(result)
-    inp = result.inputs
-    rows = []
+def layer_notes(stack, i: int) -> str:
+    """The model facts of layer ``i`` (0-based) of a stack, in words: curvature and ring
+    frequency, smeared stiffeners, in-plane tension as mounted (given, or from the
+    pressure difference), the sandwich core's shear modulus, the porous model, the gap's
+    loss factor, the tile's frame. Values come from the layers themselves."""
+    layer, mounted = stack.layers[i], stack.mounted_layers[i]
+    kind = getattr(layer, "type_name", "")
+    out = []
+    if kind == "plate":
+        radius = getattr(layer, "curvature_radius", np.inf)
+        if np.isfinite(radius):
+            out.append(f"curved, radius {_g(radius)} m, ring frequency "
+                       f"{fmt(layer.ring_frequency(), '0')} Hz")
+        da, dh = layer.stiffnesses
+        if da != dh:
+            out.append(f"stiffened, D {_g(da)} N·m axial, {_g(dh)} N·m hoop")
+        na, nh = mounted.tensions
+        if na or nh:
+            origin = "given" if layer.in_plane_tension is not None else \
+                "from the pressure difference"
+            out.append(f"tension {_g(na / 1e3)} kN/m axial, {_g(nh / 1e3)} "
+                       f"kN/m hoop ({origin})")
+        out.append(f"loss factor {_g(layer.loss_factor)}")
+    elif kind == "sandwich":
+        out.append(f"core shear modulus {_g(layer.core_shear_modulus / 1e6)} MPa, "
+                   f"loss factor {_g(layer.loss_factor)}")
+    elif kind == "porous":
+        out.append(_POROUS_MODELS.get(layer.model, layer.model))
+    elif kind == "air" and getattr(layer, "loss_factor", 0.0):
+        out.append(f"cavity loss factor {_g(layer.loss_factor)}")
+    elif kind == "solid":
+        out.append(f"elastic solid, E {_g(layer.youngs_modulus / 1e6)} MPa, "
+                   f"loss factor {_g(layer.loss_factor)}")
+    elif kind == "tile":
+        out.append(f"{layer.frame} frame, {plural(len(layer.cells), 'cell kind')}")
+    elif kind == "septum":
+        out.append("limp mass")
+    return "; ".join(out)
 
-    def flatten(section, table):
-        for r in table.rows:
-            for c, v in list(zip(table.columns, r, strict=True))[1:]:
-                words = c.header[:-len(c.unit) - 3] if c.unit else c.header
-                rows.append([section, f"{r[0]}: {words}", v, c.unit, c.style])
 
-    flatten("air", m["air"])
-    volume = inp.meta.get("cabin", {}).get("volume_m3")
-    rows.append(["cabin", "volume", volume, "m³", "0.0"])
-    rows.append(["cabin", "absorption given as", dict(m["cabin"])["absorption given as"], "",
-                 TEXT])
-    flatten("zone", m["zones"])
-    flatten("package", m["packages"])
-    for key, words, unit in (("dba", "interior level", "dBA"),
-                             ("sil4", "speech interference level SIL4", "dB")):
-        if key in inp.targets:
-            rows.append(["target", words, inp.targets[key], unit, "0.0"])
-    if "limit" in inp.targets:
-        rows.append(["target", "interior limit spectrum", "per band, sheet Exterior", "",
-                     TEXT])
-    rows.append(["study", "baseline", inp.baseline, "", TEXT])
-    rows.append(["study", "incidence", inp.incidence, "", TEXT])
-    if inp.incidence == "field":
-        rows.append(["study", "limit angle", inp.theta_max_deg or 78.0, "deg", "0.0"])
-    rows.append(["study", "exterior levels given as",
-                 "blocked surface pressure" if inp.exterior_convention == "surface"
-                 else "incident diffuse-field level", "", TEXT])
-    for name, t in m["extra"]:
-        flatten(name, t)
-    cols = [Column("section", "section"), Column("item", "item"),
-            Column("value", "value", "row"), Column("unit", "unit")]
-    return Table(cols, [r[:4] for r in rows]), [r[4] for r in rows]
+def layer_contact(stack, i: int) -> str:
+    """How layer ``i`` (0-based) meets the previous one where that matters: ``bonded`` or
+    ``unbonded`` when either is elastic (a solid or a Biot layer), or when given as
+    unbonded; '' otherwise."""
+    if i == 0:
+        return ""
+    bonding = stack.bonding[i] if i < len(stack.bonding) else "bonded"
+    elastic = any(getattr(stack.layers[j], "elastic", False) for j in (i - 1, i))
+    return f"{bonding} to {i}" if elastic or bonding != "bonded" else ""
 
 
 def stacks_model(result) -> list:
-    """Every package's stack per zone (a stack taken over unchanged is named once)."""
+    """Every package's stack per zone (a stack taken over unchanged is named once): its
+    layers with family, role (airframe structure or treatment), contact and model
+    notes, its totals and its bay."""
     inp = result.inputs
     out, drawn = [], {}
     for p in inp.packages:
@@ -565,15 +491,42 @@ def stacks_model(result) -> list:
                 out.append({"package": p.name, "zone": z.name, "same_as": drawn[id(st)]})
                 continue
             drawn[id(st)] = p.name
+            structure = tuple(p.structure.get(z.name, ())) + (False,) * len(st.layers)
             layers = [{"n": i, "label": lab, "type": layer.type_name,
                        "family": layer_family(layer, lab), "thickness_mm": layer.thickness * 1e3,
-                       "areal_mass_kg_m2": layer.areal_mass}
+                       "areal_mass_kg_m2": layer.areal_mass,
+                       "role": "structure" if structure[i - 1] else "treatment",
+                       "contact": layer_contact(st, i - 1), "notes": layer_notes(st, i - 1)}
                       for i, (layer, lab) in enumerate(zip(st.layers, st.labels, strict=True),
                                                        1)]
+            panel = getattr(st, "panel", None)
             out.append({"package": p.name, "zone": z.name, "layers": layers,
                         "total_mm": st.thickness * 1e3, "total_kg_m2": st.areal_mass,
-                        "notes": p.notes})
+                        "notes": p.notes, "contacts": any(r["contact"] for r in layers),
+                        "bay": None if panel is None else
+                        f"{fmt(panel.width * 1e3, '0')} mm x {fmt(panel.height * 1e3, '0')} mm"})
     return out
+
+
+def stacks_table(stacks: list) -> Table:
+    """The layers of every stack as one table (the workbook's Stacks sheet)."""
+    rows = []
+    for s in stacks:
+        if "same_as" in s:
+            rows.append([s["package"], s["zone"], None, f"same stack as {s['same_as']}",
+                         None, None, None, None, None, None, None])
+            continue
+        for r in s["layers"]:
+            rows.append([s["package"], s["zone"], r["n"], r["label"], r["family"], r["type"],
+                         r["role"], r["thickness_mm"], r["areal_mass_kg_m2"],
+                         r["contact"] or None, r["notes"] or None])
+    return Table([Column("package", "package"), Column("zone", "zone"),
+                  Column("n", "layer", "0"), Column("label", "name"),
+                  Column("family", "material family"), Column("type", "type"),
+                  Column("role", "mass counted as"), column("thickness_mm"),
+                  Column("areal_mass_kg_m2", "areal mass (kg/m²)", "0.00", "kg/m²"),
+                  Column("contact", "contact with the previous layer"),
+                  Column("notes", "model")], rows)
 
 
 def tiles_model(result, fmin: float = 20.0, fmax: float = 2000.0, points: int = 600):
@@ -602,7 +555,8 @@ def tiles_model(result, fmin: float = 20.0, fmax: float = 2000.0, points: int = 
                 rows.append([label, layer.areal_mass,
                              float(ext.dip_hz[0]) if ext.dip_hz.size else None, peak, peak_db,
                              gain])
-    table = Table([Column("tile", "tile layer"), column("areal_mass_kg_m2"),
+    table = Table([Column("tile", "tile layer"),
+                   Column("areal_mass_kg_m2", "areal mass (kg/m²)", "0.00", "kg/m²"),
                    column("tile_dip_hz"), column("tile_peak_hz"),
                    Column("peak_db", "TL at the peak (dB)", "0.0", "dB"),
                    Column("gain_db", "gain over mass law (dB)", "0.0", "dB")], rows)
@@ -626,13 +580,35 @@ def title_block(result) -> dict:
 
 def build(result) -> dict:
     """Everything the PDF and the workbook show, as plain tables and values."""
+    from .inputs import inputs_model
+    from .notes import REFERENCES, assumptions
+    from .paths import (
+        band_contributions,
+        contributor_colours,
+        contributors,
+        dominant_by_band,
+        dominant_runs,
+        path_levels,
+        path_table,
+    )
+
     inp = result.inputs
+    conditions = [c.name for c in inp.conditions]
+    stacks = stacks_model(result)
     return {"title": title_block(result), "summary": summary_table(result),
-            "zones": zone_table(result), "tones": tone_table(result),
-            "inputs": inputs_model(result), "stacks": stacks_model(result),
-            "band_levels": [(c.name, band_levels(result, c.name)) for c in inp.conditions],
+            "ratings": ratings_table(result), "mass": mass_table(result),
+            "tones": tone_table(result), "inputs": inputs_model(result), "stacks": stacks,
+            "stack_layers": stacks_table(stacks),
+            "band_levels": [(c, band_levels(result, c)) for c in conditions],
             "band_levels_all": band_levels_all(result),
-            "shares": contribution_shares(result),
-            "packages": [p.name for p in inp.packages],
-            "conditions": [c.name for c in inp.conditions],
+            "paths": [(c, path_table(result, c)) for c in conditions],
+            "paths_all": path_table(result),
+            "path_levels": path_levels(result),
+            "dominant": dominant_runs(result),
+            "dominant_by_band": dominant_by_band(result),
+            "band_contributions": band_contributions(result),
+            "contributors": contributors(result),
+            "contributor_colours": contributor_colours(result),
+            "assumptions": assumptions(result), "references": REFERENCES,
+            "packages": [p.name for p in inp.packages], "conditions": conditions,
             "zone_names": [z.name for z in inp.zones]}

@@ -12,30 +12,9 @@ from pathlib import Path
 from ..resources import data_path
 from ..writing import atomic_write_bytes
 from . import CAUTIONS
+from .notes import REFERENCES
 
 __all__ = ["REFERENCES", "render_html", "safe_url_fetcher", "svg_data_uri", "write_pdf"]
-
-REFERENCES = [
-    "J. F. Allard, N. Atalla, Propagation of Sound in Porous Media, 2nd ed., Wiley 2009 "
-    "(transfer matrices, JCA model).",
-    "M. E. Delany, E. N. Bazley, Acoustical properties of fibrous absorbent materials, "
-    "Applied Acoustics 3 (1970) 105-116.",
-    "Y. Miki, Acoustical properties of porous materials, J. Acoust. Soc. Jpn (E) 11 (1990).",
-    "D. L. Johnson, J. Koplik, R. Dashen, J. Fluid Mech. 176 (1987) 379-402; Y. Champoux, "
-    "J. F. Allard, J. Appl. Phys. 70 (1991) 1975.",
-    "R. Panneton, Comments on the limp frame equivalent fluid model, JASA 122 (2007) EL217.",
-    "T. E. Vigran, Building Acoustics, Taylor & Francis 2008 (mass law, plates, Paris).",
-    "L. Cremer, M. Heckl, B. Petersson, Structure-Borne Sound (plate impedance).",
-    "Z. Yang et al., Membrane-type acoustic metamaterial, Phys. Rev. Lett. 101, 204301 "
-    "(2008); Y. Chen et al., JASA 136 (2014) 969.",
-    "D. A. Bies, C. H. Hansen, Engineering Noise Control (composite TL; flow resistivity of "
-    "fibres, Applied Acoustics 13 (1980)).",
-    "IEC 61672-1:2013 (weightings); IEC 61260-1:2014 (bands); ISO 266 (preferred "
-    "frequencies).",
-    "ASTM E413 (STC); ISO 717-1:2013 (Rw, C, Ctr); ASTM E1332 (OITC); ANSI S3.14-1977 (SIL).",
-    "ISO 10140-2, ISO 16283-1 (R = L1 - L2 + 10 lg S/A); W. C. Sabine (A = 0.161 V/T).",
-    "ICAO Doc 7488 (standard atmosphere); 14 CFR 25.841 (cabin pressure altitude).",
-]
 
 
 def svg_data_uri(svg: str) -> str:
@@ -95,6 +74,7 @@ def _figures(result, m: dict, bar) -> dict:
                                 c.tones_hz, c.tone_levels_db, strict=True))}
              for c in inp.conditions]
     packages, conditions, zones = m["packages"], m["conditions"], m["zone_names"]
+    who, hue = m["contributors"], m["contributor_colours"]
     jobs = {
         "exterior": lambda: figures.exterior_spectra(conds),
         "trade": lambda: figures.trade_plot(result.summary, conditions, inp.baseline,
@@ -102,7 +82,10 @@ def _figures(result, m: dict, bar) -> dict:
         "tl": lambda: figures.tl_spectra(result.tl, packages, zones),
         "interior": lambda: figures.interior_spectra(result.bands, conditions, packages,
                                                      inp.targets.get("limit")),
-        "shares": lambda: figures.share_bars(m["shares"], conditions, packages),
+        "shares": lambda: figures.share_bars(m["path_levels"], conditions, packages, who,
+                                             hue),
+        "dominant": lambda: figures.dominant_strips(m["dominant_by_band"], conditions,
+                                                    packages, who, hue),
     }
     for k, s in enumerate(m["stacks"]):
         if "layers" in s:
@@ -113,7 +96,7 @@ def _figures(result, m: dict, bar) -> dict:
         jobs["tiles"] = lambda: figures.tile_curves(curves)
     labels = {"exterior": "exterior spectra", "trade": "mass against dBA", "tl": "TL",
               "interior": "interior spectra", "shares": "contributions",
-              "tiles": "tile curves"}
+              "dominant": "dominant paths", "tiles": "tile curves"}
     out = {}
     for name, job in jobs.items():
         bar.start(labels.get(name, "stack drawings"))
@@ -126,7 +109,7 @@ def _figures(result, m: dict, bar) -> dict:
 def _figure_count(result) -> int:
     stacks = {id(s): s for p in result.inputs.packages for s in p.stacks.values()}
     tiles = any(layer.type_name == "tile" for s in stacks.values() for layer in s.layers)
-    return 5 + len(stacks) + tiles
+    return 6 + len(stacks) + tiles
 
 
 def _context(result, bar) -> dict:
@@ -141,7 +124,7 @@ def _context(result, bar) -> dict:
     sources = [(k, cat.entries[k].get("source", "")) for k in inp.meta.get("catalog_entries",
                                                                            [])]
     return {**m, "figs": figs, "families": FAMILIES, "cautions": CAUTIONS,
-            "references": REFERENCES, "sources": sources, "air": inp.meta["air"],
+            "sources": sources, "air": inp.meta["air"],
             "theta_max": inp.theta_max_deg or 78,
             "limit": inp.targets.get("limit")}
 
@@ -149,8 +132,9 @@ def _context(result, bar) -> dict:
 def _cells(table, blank: int = 0) -> list:
     """Rows of ``(text, css class)`` cells; the first ``blank`` columns are left empty
     where they repeat the row above, so groups read at a glance; negative margins are
-    marked as missed targets."""
-    from .model import TEXT, fmt
+    marked as missed targets; rows of totals (all zones, the composite, all paths) are
+    marked as such."""
+    from .model import TEXT, TOTAL_LABELS, fmt
 
     out, prev = [], None
     for i, row in enumerate(table.rows):
@@ -163,9 +147,18 @@ def _cells(table, blank: int = 0) -> list:
             if c.key.startswith(("margin", "min_margin", "slack")) and isinstance(v, float):
                 cls += " fail" if fmt(v, style).startswith("-") else " pass"
             cells.append((text, cls.strip()))
-        out.append({"cells": cells, "group": blank and cells[0][0] != "" and prev is not None})
+        out.append({"cells": cells, "group": blank and cells[0][0] != "" and prev is not None,
+                    "total": any(v in TOTAL_LABELS for v in row if isinstance(v, str))})
         prev = row
     return out
+
+
+def _without(table, *keys):
+    """The table without the columns ``keys`` (a narrower view for the page)."""
+    from .model import Table
+
+    keep = [j for j, c in enumerate(table.columns) if c.key not in keys]
+    return Table([table.columns[j] for j in keep], [[r[j] for j in keep] for r in table.rows])
 
 
 def _environment():
@@ -179,6 +172,7 @@ def _environment():
     env.filters["fmt"] = fmt
     env.filters["svg"] = svg_data_uri
     env.globals["cells"] = _cells
+    env.globals["without"] = _without
     return env
 
 

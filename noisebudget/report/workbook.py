@@ -12,6 +12,7 @@ whatever it starts with.
 from __future__ import annotations
 
 import io
+import math
 from pathlib import Path
 
 import numpy as np
@@ -26,6 +27,7 @@ from .model import (
     TEXT,
     Column,
     Table,
+    build,
     colours,
     decimals_3sf,
     fmt,
@@ -126,7 +128,11 @@ def _sheet(wb, name: str, table: Table, tb: dict, row_styles=None, widths=None):
         width = max([min(len(col.header), 16), longest_word, *shown]) + 2
         ws.column_dimensions[get_column_letter(j)].width = min((widths or {}).get(
             col.key, width), 60)
-    ws.row_dimensions[h].height = 30
+    # the header row grows with its longest header (bold text wraps at word ends)
+    lines = max((math.ceil(len(c.header) * 1.15 / max(
+        ws.column_dimensions[get_column_letter(j)].width - 1, 1))
+        for j, c in enumerate(table.columns, start=1)), default=1)
+    ws.row_dimensions[h].height = 13 * max(lines, 2) + 4
     # printing: landscape, one page wide, title block and header on every page
     ws.page_setup.orientation = "landscape"
     ws.page_setup.paperSize = ws.PAPERSIZE_A4
@@ -150,10 +156,11 @@ def _frequency_chart(title, y_title, x_title="frequency (Hz)"):
     return ch
 
 
-def _anchor(ws, table: Table, k: int) -> str:
+def _anchor(ws, table: Table, k: int, rows: int = CHART_ROWS) -> str:
+    """The cell of the ``k``-th chart beside a table, charts ``rows`` rows apart."""
     from openpyxl.utils import get_column_letter
 
-    return f"{get_column_letter(len(table.columns) + 2)}{HEADER_ROW + k * CHART_ROWS}"
+    return f"{get_column_letter(len(table.columns) + 2)}{HEADER_ROW + k * rows}"
 
 
 def _runs(values, rows):
@@ -179,15 +186,20 @@ def _colour(series, hex_colour: str, line: bool = True):
 
 
 def _y_range(chart, values, step: float = 10.0):
-    """The y axis from the data rounded out to ``step`` (dB axes need not start at 0)."""
+    """The y axis from the data rounded out to ``step`` with a little room above and
+    below (dB axes need not start at 0)."""
     v = [x for x in values if isinstance(x, float)]
     if v:
-        chart.y_axis.scaling.min = step * np.floor(min(v) / step)
-        chart.y_axis.scaling.max = step * np.ceil(max(v) / step)
+        chart.y_axis.scaling.min = step * np.floor((min(v) - 0.2 * step) / step)
+        chart.y_axis.scaling.max = step * np.ceil((max(v) + 0.2 * step) / step)
+        chart.y_axis.majorUnit = step
+        chart.y_axis.number_format = "0"
 
 
-def _line_charts(ws, table: Table, panel_key, series_key, y_key, panels, title, y_title):
-    """One chart per panel value (condition or zone), one series per ``series_key``."""
+def _line_charts(ws, table: Table, panel_key, series_key, y_key, panels, title, y_title,
+                 first: int = 0):
+    """One chart per panel value (condition or zone), one series per ``series_key``;
+    ``first`` charts already stand beside the table."""
     from openpyxl.chart import Reference, Series
 
     keys = [c.key for c in table.columns]
@@ -207,7 +219,7 @@ def _line_charts(ws, table: Table, panel_key, series_key, y_key, panels, title, 
             _colour(s, col[name])
             ch.series.append(s)
         _y_range(ch, [table.rows[r - HEADER_ROW - 1][yc - 1] for _, r in sel])
-        ws.add_chart(ch, _anchor(ws, table, k))
+        ws.add_chart(ch, _anchor(ws, table, first + k))
 
 
 def _trade_charts(ws, table: Table, conditions):
@@ -217,13 +229,14 @@ def _trade_charts(ws, table: Table, conditions):
     from openpyxl.chart.label import DataLabelList
 
     keys = [c.key for c in table.columns]
-    xc, yc = keys.index("added_mass_kg") + 1, keys.index("interior_dba") + 1
+    xc, yc = keys.index("treatment_mass_kg") + 1, keys.index("interior_dba") + 1
     col = colours(table.values("package"))
     for k, cond in enumerate(conditions):
         ch = ScatterChart()
-        ch.title, ch.style, ch.scatterStyle = f"Added mass against interior dBA, {cond}", 13, \
-            "lineMarker"
-        ch.x_axis.title, ch.y_axis.title = "added mass per aircraft (kg)", "interior level (dBA)"
+        ch.title, ch.style, ch.scatterStyle = f"Treatment mass against interior dBA, {cond}", \
+            13, "lineMarker"
+        ch.x_axis.title = "treatment mass per aircraft (kg)"
+        ch.y_axis.title = "interior level (dBA)"
         ch.x_axis.delete = False
         ch.y_axis.delete = False
         ch.legend = None  # the points carry their names
@@ -264,8 +277,9 @@ def _num(v):
     return None if v is None or (isinstance(v, float) and v != v) else float(v)
 
 
-def _share_charts(ws, table: Table, conditions):
-    """Stacked bars of each contributor's share, one chart per condition."""
+def _share_charts(ws, table: Table, conditions, palette: dict):
+    """Stacked bars of each contributor's share, one chart per condition; ``palette``
+    maps contributor labels to colours (the PDF's)."""
     from openpyxl.chart import BarChart, Reference, Series
 
     conds = table.values("condition")
@@ -279,17 +293,16 @@ def _share_charts(ws, table: Table, conditions):
         ch.x_axis.delete = False
         ch.y_axis.delete = False
         ch.legend.position = "b"
-        ch.height, ch.width = 8, 16
+        ch.height, ch.width = 12.5, 18
         cats = Reference(ws, min_col=2, min_row=lo, max_row=hi)
-        palette = colours([c.key for c in table.columns[2:]])
         for j, col in enumerate(table.columns[2:], start=3):
-            s = Series(Reference(ws, min_col=j, min_row=lo, max_row=hi),
-                       title=col.header[:-4])
-            s.graphicalProperties.solidFill = palette[col.key]
-            s.graphicalProperties.line.solidFill = palette[col.key]
+            who = col.key.split(":", 1)[1]
+            s = Series(Reference(ws, min_col=j, min_row=lo, max_row=hi), title=who)
+            s.graphicalProperties.solidFill = palette.get(who, "BBBBBB")
+            s.graphicalProperties.line.solidFill = palette.get(who, "BBBBBB")
             ch.series.append(s)
         ch.set_categories(cats)
-        ws.add_chart(ch, _anchor(ws, table, k))
+        ws.add_chart(ch, _anchor(ws, table, k, rows=26))
 
 
 def _layers_table(result) -> tuple:
@@ -327,15 +340,21 @@ def _properties(wb, tb: dict):
     p.created = p.modified = datetime.now(UTC).replace(tzinfo=None, microsecond=0)
 
 
+# sheets whose text columns are long: they wrap
+_TEXT_SHEETS = ("Inputs", "Zones", "Packages", "Package zones", "Leaks", "Stacks",
+                "Assumptions", "Catalog and files", "Cautions")
+
+
 def write_workbook(result, path: Path) -> None:
     """Write the workbook atomically."""
     from openpyxl import Workbook
 
-    from .model import build, inputs_long
+    from .inputs import inputs_long
 
     m = build(result)
     tb = m["title"]
     inp = result.inputs
+    ins = m["inputs"]
     conditions, zones = m["conditions"], m["zone_names"]
     wb = Workbook()
     wb.remove(wb.active)
@@ -344,50 +363,62 @@ def write_workbook(result, path: Path) -> None:
     ws = _sheet(wb, "Summary", m["summary"], tb)
     _trade_charts(ws, m["summary"], conditions)
 
-    long, styles = inputs_long(result, m["inputs"])
+    long, styles = inputs_long(result, ins)
     _sheet(wb, "Inputs", long, tb, row_styles=styles, widths={"item": 36, "value": 50})
-    ext = m["inputs"]["bands"]
-    ws = _sheet(wb, "Exterior", ext, tb)
-    from openpyxl.chart import Reference, Series
-
-    for k, col in enumerate([c for c in ext.columns if c.key.startswith("exterior:")]):
-        j = ext.columns.index(col) + 1
-        ch = _frequency_chart(f"Exterior spectrum, {col.key.split(':', 1)[1]}",
-                              "exterior level (dB re 20 µPa)", "one-third-octave band (Hz)")
-        n = len(ext.rows)
-        s = Series(Reference(ws, min_col=j, min_row=HEADER_ROW + 1, max_row=HEADER_ROW + n),
-                   Reference(ws, min_col=1, min_row=HEADER_ROW + 1, max_row=HEADER_ROW + n),
-                   title=col.header)
-        s.marker.symbol = "circle"
-        s.marker.size = 4
-        _colour(s, "333355")
-        ch.series.append(s)
-        _y_range(ch, [r[j - 1] for r in ext.rows])
-        ch.legend = None  # one series, named in the title
-        ws.add_chart(ch, _anchor(ws, ext, k))
+    _spectra_sheet(wb, ins["bands"], tb)
+    _sheet(wb, "Zones", ins["zones"], tb, widths={"exterior_offset": 50, "flanking_tl": 50})
+    _sheet(wb, "Zone curves", ins["zone_curves"], tb)
+    _sheet(wb, "Packages", ins["packages"], tb, widths={"notes": 50})
+    _sheet(wb, "Package zones", ins["package_zones"], tb,
+           widths={"structure": 40, "leaks": 40, "flanking": 40})
+    _sheet(wb, "Leaks", ins["leaks"], tb, widths={"bypasses": 40})
+    if ins["sources"].rows:
+        _sheet(wb, "Interior sources", ins["sources"], tb)
 
     if m["tones"].rows:
         _sheet(wb, "Tones", m["tones"], tb)
 
-    bands = _table(result.bands, inp, ["condition", "package"])
+    _sheet(wb, "Paths", m["paths_all"], tb)
+    shares = _share_table(m["path_levels"])
+    ws = _sheet(wb, "Shares", shares, tb)
+    _share_charts(ws, shares, conditions, m["contributor_colours"])
+    _sheet(wb, "Dominant paths", m["dominant"], tb)
+
+    bands = _table(_with_largest(result.bands, m["dominant_by_band"]), inp,
+                   ["condition", "package"], {
+                       "dominant_zone": "dominant zone (zones only)",
+                       "dominant_path": "dominant kind of path (summed over zones)",
+                       "contributor": "largest path",
+                       "band_share_pct": "its share of the band (%)"})
     ws = _sheet(wb, "Interior bands", bands, tb)
     _line_charts(ws, bands, "condition", "package", "interior_db", conditions,
                  "Interior spectrum", "interior level (dB re 20 µPa)")
 
-    contrib = _table(result.contributions, inp, ["condition", "package"])
+    contrib = _table(m["band_contributions"], inp, ["condition", "package"],
+                     {"zone": "zone or interior source", "path": "kind of path",
+                      "contributor": "path"})
     _sheet(wb, "Contributions", contrib, tb)
-    shares = _share_table(m["shares"])
-    ws = _sheet(wb, "Shares", shares, tb)
-    _share_charts(ws, shares, conditions)
 
     tl = _table(result.tl, inp, ["zone", "package"])
     ws = _sheet(wb, "TL", tl, tb)
     _line_charts(ws, tl, "zone", "package", "tl_db", zones, "Transmission loss",
                  "transmission loss (dB)")
+    if "zone_tl_db" in result.tl:
+        _line_charts(ws, tl, "zone", "package", "zone_tl_db", zones,
+                     "Zone TL with leaks and flanking", "transmission loss (dB)",
+                     first=len(zones))
 
-    _sheet(wb, "Ratings and mass", m["zones"], tb)
+    _sheet(wb, "Ratings", m["ratings"], tb)
+    _sheet(wb, "Mass", m["mass"], tb)
+    _sheet(wb, "Stacks", m["stack_layers"], tb, widths={"notes": 50})
     layers, styles = _layers_table(result)
     _sheet(wb, "Layers", layers, tb, row_styles=styles)
+    notes = [[topic, text, here] for topic, text, here in m["assumptions"]]
+    notes += [[f"reference {k}", ref, None] for k, ref in enumerate(m["references"], 1)]
+    _sheet(wb, "Assumptions", Table([Column("topic", "topic"),
+                                     Column("statement", "assumption or convention"),
+                                     Column("here", "in this study")], notes), tb,
+           widths={"topic": 24, "statement": 60, "here": 50})
 
     from ..catalog import load_catalog
 
@@ -396,37 +427,86 @@ def write_workbook(result, path: Path) -> None:
     src += [[name, f"SHA-256 {digest}"] for name, digest in tb["files"]]
     src.append(["input hash", f"SHA-256 over the lines 'digest  file name' above, sorted: "
                               f"{tb['input_hash']}"])
-    _sheet(wb, "Sources", Table([Column("entry", "entry or file"), Column("source", "source")],
-                                src), tb, widths={"source": 60})
+    _sheet(wb, "Catalog and files", Table([Column("entry", "entry or file"),
+                                           Column("source", "source")], src), tb,
+           widths={"source": 60})
     _sheet(wb, "Cautions", Table([Column("caution", "caution")], [[c] for c in CAUTIONS]),
            tb, widths={"caution": 60})
-    for name in ("Inputs", "Sources", "Cautions"):  # long text wraps
-        _wrap_long(wb[name])
+    for name in _TEXT_SHEETS:  # long text wraps
+        if name in wb.sheetnames:
+            _wrap_long(wb[name])
     buf = io.BytesIO()
     wb.save(buf)
     atomic_write_bytes(path, buf.getvalue())
 
 
-def _table(df: pd.DataFrame, inp, keys) -> Table:
+def _spectra_sheet(wb, table: Table, tb: dict):
+    """Band inputs with a chart per condition's exterior spectrum and one of the
+    interior sources."""
+    from openpyxl.chart import Reference, Series
+
+    ws = _sheet(wb, "Input spectra", table, tb)
+    n = len(table.rows)
+
+    def series(j, title, hex_colour):
+        s = Series(Reference(ws, min_col=j, min_row=HEADER_ROW + 1, max_row=HEADER_ROW + n),
+                   Reference(ws, min_col=1, min_row=HEADER_ROW + 1, max_row=HEADER_ROW + n),
+                   title=title)
+        s.marker.symbol = "circle"
+        s.marker.size = 4
+        _colour(s, hex_colour)
+        return s
+
+    exterior = [c for c in table.columns if c.key.startswith("exterior:")]
+    for k, col in enumerate(exterior):
+        j = table.columns.index(col) + 1
+        ch = _frequency_chart(f"Exterior spectrum, {col.key.split(':', 1)[1]}",
+                              "exterior level (dB re 20 µPa)", "one-third-octave band (Hz)")
+        ch.series.append(series(j, col.header, "333355"))
+        _y_range(ch, [r[j - 1] for r in table.rows])
+        ch.legend = None  # one series, named in the title
+        ws.add_chart(ch, _anchor(ws, table, k))
+    sources = [c for c in table.columns if c.key.startswith("source:")]
+    if sources:
+        ch = _frequency_chart("Interior sources", "level in the cabin (dB re 20 µPa)",
+                              "one-third-octave band (Hz)")
+        hues = colours([c.key for c in sources])
+        for col in sources:
+            j = table.columns.index(col) + 1
+            ch.series.append(series(j, col.key.split(":", 1)[1], hues[col.key]))
+        _y_range(ch, [r[table.columns.index(c)] for r in table.rows for c in sources])
+        ws.add_chart(ch, _anchor(ws, table, len(exterior)))
+
+
+def _with_largest(bands: pd.DataFrame, largest: pd.DataFrame) -> pd.DataFrame:
+    """The bands table with each band's largest path and its share of the band."""
+    return bands.merge(largest, on=["condition", "package", "band_hz"], how="left")
+
+
+def _table(df: pd.DataFrame, inp, keys, headers=None) -> Table:
     """A result table in the study's order, its sort keys as the first columns."""
     df = in_study_order(df, inp, keys)
-    return Table.from_frame(df, [*keys, *[c for c in df.columns if c not in keys]])
+    return Table.from_frame(df, [*keys, *[c for c in df.columns if c not in keys]], headers)
 
 
 def _wrap_long(ws):
-    """Text longer than its column wraps, and its row grows to show it."""
-    import math
-
-    from openpyxl.styles import Alignment
+    """Text longer than its column wraps, and its row grows to show it; every cell of
+    such a row aligns to the top, so numbers stay level with the text they belong to."""
+    from copy import copy
 
     for row in ws.iter_rows(min_row=HEADER_ROW + 1):
         lines = 1
         for c in row:
             width = ws.column_dimensions[c.column_letter].width or 10
             if isinstance(c.value, str) and len(c.value) > width:
-                c.alignment = Alignment(wrap_text=True, vertical="top")
                 lines = max(lines, math.ceil(len(c.value) * 1.1 / width))
         if lines > 1:
+            for c in row:
+                align = copy(c.alignment)
+                align.vertical = "top"
+                if isinstance(c.value, str):
+                    align.wrap_text = True
+                c.alignment = align
             ws.row_dimensions[row[0].row].height = 13 * lines
 
 
