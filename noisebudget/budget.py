@@ -83,12 +83,16 @@ class Condition:
 @dataclass(frozen=True)
 class Zone:
     """A part of the cabin wall: area (m^2), exterior offset (dB added to the condition's
-    levels and tones) and an optional flanking path around the packages (its TL)."""
+    levels and tones), an optional flanking path around the packages (its TL), and an
+    optional bay ``panel = (width, height)`` in m: the panel that radiates into the cabin,
+    which every package's stack on the zone fills
+    (:meth:`~noisebudget.stack.Stack.with_panel`, applied by the kernel)."""
 
     name: str
     area: float
     exterior_offset: Curve = field(default_factory=Curve)
     flanking_tl: Curve | None = None
+    panel: tuple | None = None
 
 
 @dataclass(frozen=True)

@@ -71,7 +71,8 @@ from .wavebasis import (
     solid_medium,
 )
 
-__all__ = ["BONDING", "Response", "needs_general_solve", "solve", "solve_angles"]
+__all__ = ["BONDING", "Response", "needs_general_solve", "sheet_between_fluids", "solve",
+           "solve_angles"]
 
 BONDING = ("bonded", "unbonded")
 
@@ -79,6 +80,31 @@ BONDING = ("bonded", "unbonded")
 def needs_general_solve(layers) -> bool:
     """True when any layer is elastic (a solid or a Biot porous layer)."""
     return any(getattr(layer, "elastic", False) for layer in layers)
+
+
+def sheet_between_fluids(layers, bonding, index: int) -> bool:
+    """True when the sheet ``layers[index]`` meets fluid media on both faces in the chain
+    of :func:`solve` (a half-space, a fluid or limp layer, or the air film that an
+    unbonded contact, a neighbouring sheet or a non-plate sheet puts in between).
+
+    Such a sheet enters the solve only through ``p_above - p_below = Z v``. Whatever the
+    media further on (solids, Biot layers), the part in front of it is a linear two-port
+    ``L`` between fluid states and the part behind it an input impedance ``Zr`` with a
+    fixed ratio ``G = t / v`` to the transmitted wave; so the velocity through the sheet is
+    ``v = 2 Y1 p_i / (alpha + (L11 Y1 + L21) Z)`` (``alpha`` free of Z), the transmitted
+    amplitude ``t(Z) = t0 / (1 + kappa Z)`` and the reflection factor
+    ``(r0 + b Z) / (1 + kappa Z)``: Moebius functions of Z with one shared pole (used by
+    :meth:`noisebudget.stack.Stack._tau_azimuth_mean`). A plate or septum bonded to a
+    framed medium is not such a sheet (its in-plane motion couples to the frame).
+    """
+    if not isinstance(layers[index], (Plate, Septum)):
+        return True   # other sheets always touch frames through an air film
+    bonded = [True] + [b != "unbonded" for b in tuple(bonding)[1:]]
+    bonded += [True] * (len(layers) - len(bonded))
+    for j, contact in ((index - 1, index), (index + 1, index + 1)):
+        if 0 <= j < len(layers) and getattr(layers[j], "elastic", False) and bonded[contact]:
+            return False
+    return True
 
 
 @dataclass(frozen=True)
@@ -403,19 +429,24 @@ def solve(layers, bonding, elements, omega, kt, source, kz1, receiver=None, kz2=
     return Response(r, t, tau)
 
 
-def solve_angles(stack, omega, theta, backing="receiver", azimuth=None) -> Response:
+def solve_angles(stack, omega, theta, backing="receiver", azimuth=None,
+                 override=None) -> Response:
     """:func:`solve` for a :class:`~noisebudget.stack.Stack` at source-side angles theta.
 
     ``kz1 = k1 cos(theta)``; the receiving air's ``kz2 = sqrt(k2^2 - kt^2)``, negative
     imaginary where evanescent; ``backing`` is ``"receiver"`` or ``"rigid"``. The stack's
     layers as mounted; direction-dependent ones at ``azimuth`` (broadcasting).
+    ``override`` maps a layer index to the element used in its place (a sheet's
+    impedance set to chosen values, :func:`sheet_between_fluids`).
     """
     k1 = omega / stack.source_air.sound_speed
     kt = k1 * np.sin(theta)
     layers = stack.mounted_layers
     air = stack.cavity_air
-    elements = [layer.element(omega, kt, air) if layer.isotropic
-                else layer.element(omega, kt, air, azimuth) for layer in layers]
+    override = override or {}
+    elements = [override[i] if i in override
+                else layer.element(omega, kt, air) if layer.isotropic
+                else layer.element(omega, kt, air, azimuth) for i, layer in enumerate(layers)]
     kz1 = k1 * np.cos(theta)
     bonding = getattr(stack, "bonding", ())
     if backing == "rigid":

@@ -298,24 +298,83 @@ class Stack:
                                                (min(rows, n - i), *shape[1:]))
                                for i in range(0, n, rows)])
 
-    def _azimuth_sheet(self) -> int | None:
+    def _azimuth_sheet(self, backing: str = "receiver") -> int | None:
         """Index of the single direction-dependent sheet whose impedance is a
         polynomial in cos^2(phi) (closed-form azimuth average), else None (several
-        direction-dependent layers, or the general solve of elastic layers: the nested
-        average)."""
-        if self._general:
-            return None
+        direction-dependent layers, or, in the general solve of elastic layers, a sheet
+        bonded to a frame or a rigid backing: the nested average)."""
         which = [i for i, layer in enumerate(self._mounted) if not layer.isotropic]
-        if len(which) == 1 and hasattr(self._mounted[which[0]], "azimuth_polynomial"):
-            return which[0]
-        return None
+        if len(which) != 1 or not hasattr(self._mounted[which[0]], "azimuth_polynomial"):
+            return None
+        if self._general and (backing != "receiver" or not multilayer.sheet_between_fluids(
+                self._mounted, self.bonding, which[0])):
+            return None
+        return which[0]
+
+    def _sheet_moebius(self, omega, theta, sheet: int, reflection: bool = False):
+        """``(t0, kappa, r0, b)`` with ``t(Z) = t0 / (1 + kappa Z)`` and ``r(Z) = (r0 + b Z)
+        / (1 + kappa Z)`` for the impedance Z of the sheet ``sheet`` (between fluid media,
+        :func:`noisebudget.multilayer.sheet_between_fluids`). Arrays (nf, nth).
+
+        Two general solves, Z = 0 and ``Z_ref = j omega m + rho1 c1`` (m the sheet's areal
+        mass: the scale of its impedance), give ``kappa = (t0 / t_ref - 1) / Z_ref`` and
+        ``b``. A sheet facing the source air needs one: behind it the stack has the input
+        impedance ``Zr = (1 + r0) / ((1 - r0) Y1)`` (the Z = 0 solve's surface impedance),
+        the sheet's velocity is ``2 Y1 p_i / (1 + Y1 (Zr + Z))``, so
+        ``kappa = Y1 / (1 + Y1 Zr) = Y1 (1 - r0) / 2`` with ``Y1 = cos(theta) / (rho1 c1)``
+        (``r0``, ``b`` are then None unless ``reflection``).
+        """
+        nf = omega.shape[0]
+        theta = np.broadcast_to(theta, (nf, np.shape(theta)[-1]))
+        zref = 1j * omega * self._mounted[sheet].areal_mass + self.source_air.impedance
+        one = sheet == 0 and not reflection
+        rows = max(1, _SOLVE_POINTS // ((1 if one else 2) * theta.shape[1]))
+        t, t_ref, r, r_ref = [], [], [], []
+        for i in range(0, nf, rows):  # blocks of frequencies bound the solve's memory
+            w, th, zr = omega[i:i + rows], theta[i:i + rows], zref[i:i + rows]
+            n = len(w)
+            z = np.zeros_like(zr) if one else np.concatenate([np.zeros_like(zr), zr])
+            res = multilayer.solve_angles(self, w if one else np.concatenate([w, w]),
+                                          th if one else np.concatenate([th, th]),
+                                          override={sheet: SheetElement(z)})
+            t.append(res.transmission[:n])
+            t_ref.append(res.transmission[n:])
+            r.append(res.reflection[:n])
+            r_ref.append(res.reflection[n:])
+        t, t_ref, r, r_ref = (np.concatenate(x) for x in (t, t_ref, r, r_ref))
+        if one:
+            return t, np.cos(theta) / self.source_air.impedance * (1 - r) / 2, None, None
+        with np.errstate(divide="ignore", invalid="ignore", under="ignore"):
+            seen = t_ref != 0   # where the transmitted wave underflows, so does t0
+            kappa = np.where(seen, (t / np.where(seen, t_ref, 1.0) - 1) / zref, 0.0)
+            t0 = np.where(seen, t, 0.0)
+            b = (r_ref * (1 + kappa * zref) - r) / zref
+        return t0, kappa, r, b
+
+    def _tau_azimuth_mean_general(self, omega, theta, sheet: int, radiation=None):
+        """Azimuth-averaged tau of a general-solve stack whose direction-dependent sheet
+        meets fluid media on both faces: ``t = t0 / (1 + kappa Z)``
+        (:meth:`_sheet_moebius`), so ``E|t|^2 = |t0|^2 E|1 + kappa Z(x)|^-2`` in closed
+        form (:func:`noisebudget.incidence.azimuth_mean_inverse_square`)."""
+        kt = omega / self.source_air.sound_speed * np.sin(theta)
+        t0, kappa, _, _ = self._sheet_moebius(omega, theta, sheet)
+        z0, z1, z2 = self._mounted[sheet].azimuth_polynomial(omega, kt, self.cavity_air)
+        mean = azimuth_mean_inverse_square(1 + kappa * z0, kappa * z1, kappa * z2)
+        y1 = np.cos(theta) / self.source_air.impedance
+        y2 = self._receiver_kz(omega, theta) / (omega * self.receiver_air.density)
+        with np.errstate(under="ignore", divide="ignore", invalid="ignore"):
+            tau = (t0.real**2 + t0.imag**2) * mean * self._radiated(kt, y2, radiation) / y1
+        return np.minimum(np.where(y1 > 0, tau, 0.0), 1.0)
 
     def _tau_azimuth_mean(self, omega, theta, sheet: int, radiation=None):
         """Azimuth-averaged tau, ``(2/pi) int_0^(pi/2) tau dphi``, in closed form.
 
         ``den = alpha + beta Z(x)`` with ``beta = (L11 Y1 + L21)(R21 + R22 Y2)``, and
-        ``Z = z0 + z1 x + z2 x^2`` (``x = cos^2 phi``) the sheet's impedance.
+        ``Z = z0 + z1 x + z2 x^2`` (``x = cos^2 phi``) the sheet's impedance. A stack of
+        the general solve goes to :meth:`_tau_azimuth_mean_general`.
         """
+        if self._general:
+            return self._tau_azimuth_mean_general(omega, theta, sheet, radiation)
         kt = omega / self.source_air.sound_speed * np.sin(theta)
         layer = self._mounted[sheet]
         y1 = np.cos(theta) / self.source_air.impedance
@@ -605,11 +664,19 @@ class Stack:
         ``Zs = (A + B Z) / (C + E Z)`` with ``A = L11 u + L12 w``, ``B = L11 w``,
         ``C = L21 u + L22 w``, ``E = L21 w`` and ``(u, w)`` the state in front of the
         layers R behind the sheet (``R (1, Y2)`` into the receiving air, ``R (1, 0)``
-        against a rigid wall); so is the reflection factor.
+        against a rigid wall); so is the reflection factor. In the general solve (the sheet
+        between fluid media, receiver backing) the reflection factor is
+        ``(r0 + b Z) / (1 + kappa Z)`` from :meth:`_sheet_moebius`.
         """
         if backing not in ("rigid", "receiver"):
             raise ValueError("backing must be 'rigid' or 'receiver'")
         kt = omega / self.source_air.sound_speed * np.sin(theta)
+        if self._general:  # the sheet between fluids, into the receiver (_azimuth_sheet)
+            _, kappa, r0, b = self._sheet_moebius(omega, theta, sheet, reflection=True)
+            zz = self._mounted[sheet].azimuth_polynomial(omega, kt, self.cavity_air)
+            return 1 - azimuth_mean_ratio_square(
+                (r0 + b * zz[0], b * zz[1], b * zz[2]),
+                (1 + kappa * zz[0], kappa * zz[1], kappa * zz[2]))
         ra, rb, rc, rd, _ = cascade(self._elements(self._mounted[sheet + 1:], omega, kt,
                                                    None), omega, kt)
         la, lb, lc, ld, _ = cascade(self._elements(self._mounted[:sheet], omega, kt, None),
@@ -644,7 +711,7 @@ class Stack:
         if self.isotropic:
             out = paris_average(lambda rows, theta: self._alpha(omega[rows], theta, backing),
                                 k0, self.sharp_trace_wavenumbers(omega), np.pi / 2, rtol)
-        elif (sheet := self._azimuth_sheet()) is not None:
+        elif (sheet := self._azimuth_sheet(backing)) is not None:
             out = paris_average(lambda rows, theta: self._alpha_azimuth_mean(
                 omega[rows], theta, backing, sheet), k0, self.sharp_trace_wavenumbers(omega),
                 np.pi / 2, rtol)

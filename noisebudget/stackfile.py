@@ -209,8 +209,11 @@ def include_stack(rel: str, where: str, reader: Reader, host: str = "stack"):
                                 f"{', '.join(ignored)} ignored; the layers take the air of "
                                 f"the {host} they join"), stacklevel=2)
     if "panel" in data:
-        warnings.warn(InputNote(f"{reader.file}: {where}: {rel}: its panel ignored; the "
-                                f"layers fill the bay of the {host} they join"), stacklevel=2)
+        bay = ("the zone sets the bay (panel_width and panel_height of its [[zone]]; "
+               "without them the wall is infinite)" if host == "study's zone"
+               else f"the layers fill the bay of the {host} they join")
+        warnings.warn(InputNote(f"{reader.file}: {where}: {rel}: its panel ignored; {bay}"),
+                      stacklevel=2)
     if len(reader.problems) > before or values is INVALID:
         return INVALID
     return values["layer"]

@@ -122,6 +122,14 @@ ZONE: dict[str, Field] = {
                                  "between them, constant outside; a tone takes the offset at "
                                  "its frequency)"),
     **FLANKING,
+    "panel_width": Field("length", needs=("panel_height",),
+                         doc="width of the panel that radiates into the cabin on this zone "
+                             "(e.g. a trim panel): with panel_height, every package's stack "
+                             "on the zone is a finite bay of that size (finite-size radiation "
+                             "correction by spatial windowing; a stack file's own [panel] is "
+                             "ignored with a note); at most the zone's area"),
+    "panel_height": Field("length", needs=("panel_width",),
+                          doc="height of that panel, with panel_width"),
     "notes": Field("text", doc="free text"),
 }
 
@@ -383,6 +391,20 @@ def _curve(v, key, points_key, where, reader):
     return Curve((), (values,))
 
 
+def _bay(v, where, reader):
+    """A zone's panel ``(width, height)`` in m, None without one, INVALID when refused
+    (the schema says when only one side is given; here: a bay larger than its zone)."""
+    if "panel_width" not in v or "panel_height" not in v:
+        return INVALID if v.given("panel_width") or v.given("panel_height") else None
+    w, h = v["panel_width"], v["panel_height"]
+    if "area" in v and w * h > v["area"]:
+        reader.problem(join(where, "panel_width"),
+                       f"the bay ({w:.4g} m x {h:.4g} m = {w * h:.4g} m^2) is larger than "
+                       f"the zone ({v['area']:.4g} m^2)")
+        return INVALID
+    return (w, h)
+
+
 def _zones(entries, reader):
     from .budget import Curve, Zone
 
@@ -391,8 +413,9 @@ def _zones(entries, reader):
         where = f"zone[{i}]"
         offset = _curve(v, "exterior_offset_db", "offset_bands_hz", where, reader)
         flanking = _curve(v, "flanking_tl_db", "flanking_bands_hz", where, reader)
-        if "name" in v and "area" in v and offset is not INVALID and flanking is not INVALID:
-            out.append(Zone(v["name"], v["area"], offset or Curve(), flanking))
+        bay = _bay(v, where, reader)
+        if "name" in v and "area" in v and all(x is not INVALID for x in (offset, flanking, bay)):
+            out.append(Zone(v["name"], v["area"], offset or Curve(), flanking, bay))
     return out
 
 

@@ -6,7 +6,15 @@ each distinct package stack (packages built with ``based_on`` share stack object
 each group of leaks. Stacks of one structure (the variants of a trade study, each a
 package of one budget) are computed as one batch along a leading variants axis
 (:meth:`~noisebudget.stack.Stack.band_transmission_losses`, :mod:`noisebudget.batch`);
-a variant's numbers do not depend on which variants share its batch.
+a variant's numbers do not depend on which variants share its batch. The batches, each
+stack the batch cannot take (the general solve of elastic layers, nested azimuth
+averages), the leaks and the package absorption are independent tasks on a small thread
+pool (numpy releases the GIL inside its large array operations), the dearest first.
+
+A zone with a bay (``Zone.panel``) puts every package's stack on it into that bay
+(:meth:`~noisebudget.stack.Stack.with_panel`): its band and tone transmission include
+the finite-size radiation correction. The bay is the panel radiating into the cabin; the
+layers in front of a leak radiate into the cavity and keep the infinite stack.
 
 A leak behind the first k layers of a stack transmits ``tau_front(f) * tau_leak(f)``,
 with ``tau_front`` the transmission of those layers into the cavity air (the leak then
@@ -26,6 +34,7 @@ import numpy as np
 
 from . import batch
 from .bands import Bands, band_average
+from .multilayer import needs_general_solve
 
 __all__ = ["distinct_items", "zone_transmissions"]
 
@@ -109,7 +118,8 @@ def zone_transmissions(inp, bands: Bands, tone_hz) -> dict:
     Returns
     -------
     dict of arrays
-        ``wall`` (P, Z, B) and ``wall_tone`` (P, Z, F): the package stack's tau;
+        ``wall`` (P, Z, B) and ``wall_tone`` (P, Z, F): the package stack's tau (in the
+        zone's bay, if it has one);
         ``leak_area`` (P, Z, B) and ``leak_tone_area`` (P, Z, F): ``sum S_l tau_l`` in
         m^2; ``open_area`` (P, Z): the leaks' open area; ``absorption`` (P, B): cabin
         absorption area; ``tone_hz`` (F,).
@@ -117,28 +127,53 @@ def zone_transmissions(inp, bands: Bands, tone_hz) -> dict:
     zones, pkgs = inp.zones, inp.packages
     tone_hz = np.asarray(tone_hz, dtype=float)
     inc, tmax = inp.incidence, inp.theta_max_deg
-    stacks, s_idx = distinct_items([[p.stacks[z.name] for z in zones] for p in pkgs], id)
+    stacks, s_idx = distinct_items([[(p.stacks[z.name], z.panel) for z in zones]
+                                    for p in pkgs], lambda x: (id(x[0]), x[1]))
+    stacks = [s if bay is None else s.with_panel(*bay) for s, bay in stacks]
     leak_sets, l_idx = distinct_items([[(p.stacks[z.name], p.leaks.get(z.name, ())) for z in zones]
                                   for p in pkgs], lambda x: (id(x[0]), x[1]))
+    together = [i for i, s in enumerate(stacks) if batch.batchable(s)]
+    alone = [i for i, s in enumerate(stacks) if not batch.batchable(s)]
+
+    def walls(idx):
+        chosen = [stacks[i] for i in idx]
+        band = 10 ** (-_by_class(chosen, "band_transmission_losses", bands, inc, tmax,
+                                 _WALL_RTOL) / 10)
+        tone = (_by_class(chosen, "average_transmissions", tone_hz, inc, tmax, _WALL_RTOL)
+                if tone_hz.size else np.empty((len(idx), 0)))
+        return band, tone
+
+    terms = _leak_terms(leak_sets)
+    n_sets = len(leak_sets)
+
+    def leak_paths():
+        if terms:
+            band = band_average(lambda g, f: _leak_area(terms, n_sets, g, f, inc, tmax),
+                                bands, _LEAK_RTOL, groups=n_sets)
+        else:
+            band = np.zeros((n_sets, len(bands)))
+        tone = _leak_area(terms, n_sets, np.repeat(np.arange(n_sets), tone_hz.size),
+                          np.tile(tone_hz, n_sets), inc, tmax).reshape(n_sets, tone_hz.size)
+        return band, tone
+
     tasks = {}
+    for i in alone:  # stacks the batch cannot take: one task each, on the pool
+        tasks["wall", i] = lambda i=i: walls([i])
+    if together:
+        tasks["batch", 0] = lambda: walls(together)
+    tasks["leak", 0] = leak_paths
     if inp.include_package_absorption:
         for i, s in enumerate(stacks):
             tasks["absorb", i] = lambda s=s: s.reversed().random_incidence_absorption(
                 bands.centre, "receiver")
-    done = _run(tasks)
-    wall = 10 ** (-_by_class(stacks, "band_transmission_losses", bands, inc, tmax,
-                             _WALL_RTOL) / 10)
-    wall_tone = (_by_class(stacks, "average_transmissions", tone_hz, inc, tmax, _WALL_RTOL)
-                 if tone_hz.size else np.empty((len(stacks), 0)))
-    terms = _leak_terms(leak_sets)
-    n_sets = len(leak_sets)
-    if terms:
-        leak = band_average(lambda g, f: _leak_area(terms, n_sets, g, f, inc, tmax), bands,
-                            _LEAK_RTOL, groups=n_sets)
-    else:
-        leak = np.zeros((n_sets, len(bands)))
-    leak_tone = _leak_area(terms, n_sets, np.repeat(np.arange(n_sets), tone_hz.size),
-                           np.tile(tone_hz, n_sets), inc, tmax).reshape(n_sets, tone_hz.size)
+    done = _run(_longest_first(tasks, stacks))
+    wall = np.empty((len(stacks), len(bands)))
+    wall_tone = np.empty((len(stacks), tone_hz.size))
+    for i in alone:
+        wall[i], wall_tone[i] = done["wall", i][0][0], done["wall", i][1][0]
+    if together:
+        wall[together], wall_tone[together] = done["batch", 0]
+    leak, leak_tone = done["leak", 0]
 
     absorption = inp.cabin_area_m2[inp.cabin_bands.index(bands.nominal)][None, :]
     if inp.include_package_absorption:
@@ -153,6 +188,23 @@ def zone_transmissions(inp, bands: Bands, tone_hz) -> dict:
                                   )[l_idx],
             "absorption": np.broadcast_to(absorption, (len(pkgs), len(bands))).copy(),
             "tone_hz": tone_hz}
+
+
+def _longest_first(tasks: dict, stacks) -> dict:
+    """The tasks reordered by a rough cost, dearest first, so that the thread pool does not
+    start the longest one last: stacks of the general solve (elastic layers) before
+    direction-dependent ones before the batch of the rest, then the leaks, then the
+    absorption (a longest-first schedule)."""
+    kind = {"wall": 0, "batch": 1, "leak": 2, "absorb": 3}
+
+    def rank(key):
+        what, i = key
+        if what == "wall":
+            s = stacks[i]
+            return (0, 0 if needs_general_solve(s.layers) else 1 if not s.isotropic else 2)
+        return (kind[what], 0)
+
+    return {k: tasks[k] for k in sorted(tasks, key=rank)}
 
 
 def distinct_items(grid, key):

@@ -142,7 +142,13 @@ def test_demo_added_mass_and_dba_per_kg_by_hand():
             - s.loc[("heavy blanket", "cruise"), "interior_dba"])
     assert s.loc[("heavy blanket", "cruise"), "dba_gain_per_kg"] == pytest.approx(gain / added)
     assert np.isnan(s.loc[("baseline", "cruise"), "dba_gain_per_kg"])
-    assert set(res.summary["package"]) == {"baseline", "heavy blanket", "septum", "BPF tiles"}
+    assert set(res.summary["package"]) == {"baseline", "heavy blanket", "septum", "BPF tiles",
+                                           "foam barrier"}
+    # foam barrier vs baseline on the sidewall only (the crown inherited): 60 mm x 9.6
+    # kg/m^3 + 25 mm x 24 kg/m^3 + 1.5 kg/m^2 - 75 mm x 9.6 kg/m^3 - 1 oz/yd^2 (33.9 g/m^2),
+    # and 0.35 - 0.25 kg/m^2 of installation, over 62 m^2
+    foam = (0.576 + 0.6 + 1.5 - 0.72 - 0.0339 + 0.10) * 62
+    assert s.loc[("foam barrier", "cruise"), "added_mass_kg"] == pytest.approx(foam, rel=1e-3)
     # the tuned tiles are the package that lowers the BPF-dominated dBA
     assert s.loc[("BPF tiles", "cruise"), "dba_gain"] > 2
 

@@ -150,7 +150,7 @@ def test_no_negative_zero_and_plurals(tmp_path, capsys):
 def test_check_counts_in_words(tmp_path, capsys):
     demo = data_path("examples", "demo-study.toml").read_text()
     assert main(["check", str(write(tmp_path, demo, "demo.toml"))]) == 0
-    assert "4 packages, 3 zones, 2 conditions" in capsys.readouterr().out
+    assert "5 packages, 3 zones, 2 conditions" in capsys.readouterr().out
     one = demo[:demo.index('[[condition]]\nname = "climb"')] + demo[demo.index("[[zone]]"):]
     one = one.replace('conditions = ["climb"]', 'conditions = ["cruise"]')  # one condition
     assert main(["check", str(write(tmp_path, one, "one.toml"))]) == 0

@@ -540,6 +540,22 @@ REFUSED = [
         ("vary-single-table", VARY.replace("[[vary]]", "[vary]"), "vary",
          "expected an array of tables ([[vary]]), got a single table"),
     ]],
+    # zone bays: both sides or neither, a length, no larger than the zone
+    Case("bay-width-alone", T, "flanking_tl_db = 45", 'flanking_tl_db = 45\npanel_width = "1 m"',
+         "zone[1].panel_width", "needs panel_height as well"),
+    Case("bay-height-alone", T, "flanking_tl_db = 45",
+         'flanking_tl_db = 45\npanel_height = "1.4 m"', "zone[1].panel_height",
+         "needs panel_width as well"),
+    Case("bay-larger-than-zone", T, "flanking_tl_db = 45",
+         'flanking_tl_db = 45\npanel_width = "5 m"\npanel_height = "4.5 m"',
+         "zone[1].panel_width", "the bay (5 m x 4.5 m = 22.5 m^2) is larger than the zone "
+         "(20 m^2)"),
+    Case("bay-no-unit", T, "flanking_tl_db = 45",
+         'flanking_tl_db = 45\npanel_width = "1"\npanel_height = "1.4 m"',
+         "zone[1].panel_width", "has no unit"),
+    Case("bay-negative", T, "flanking_tl_db = 45",
+         'flanking_tl_db = 45\npanel_width = "1 m"\npanel_height = "-1.4 m"',
+         "zone[1].panel_height", "must be > 0"),
     # files that are not TOML text
     Case("binary", T, None, b"\x00\x01\xff\xfe garbage \x80", "", "not UTF-8 text"),
     Case("latin-1", S, None, 'title = "caf\xe9"\n'.encode("latin-1"), "", "not UTF-8 text"),
@@ -631,6 +647,8 @@ ACCEPTED = [
          'reverberation_time = ["0.6 s", "0.5 s"]', "", ""),
     Case("leak-zero-depth", T, 'depth = "5 mm"', 'depth = "0 mm"', "", ""),
     Case("source-every-condition", T, 'conditions = ["cruise"]\n', "", "", ""),
+    Case("zone-bay", T, "flanking_tl_db = 45",
+         'flanking_tl_db = 45\npanel_width = "1.0 m"\npanel_height = "1.4 m"', "", ""),
     Case("one-offset", T, "exterior_offset_db = [2, 4, 1]\noffset_bands_hz = [63, 125, 1000]",
          "exterior_offset_db = -3", "", ""),
     # a grid over a layer of an inserted stack file and the installation mass, and a

@@ -107,8 +107,8 @@ def zone_bay(inp, zone):
     """``(width, height)`` in m of the zone's bay (finite panel), or None: from the zone
     where it carries one, else from its packages' stacks when they all agree."""
     panel = getattr(zone, "panel", None)
-    if panel is not None:
-        return float(panel.width), float(panel.height)
+    if panel is not None:  # (width, height) in m
+        return float(panel[0]), float(panel[1])
     w, h = getattr(zone, "panel_width", None), getattr(zone, "panel_height", None)
     if w and h:
         return float(w), float(h)

@@ -1,0 +1,139 @@
+"""Zone bays in a study: ``[[zone]] panel_width`` and ``panel_height`` put every package's
+stack on the zone into a finite bay (spatial windowing, Villot, Guigou & Gagliardini,
+J. Sound Vib. 245 (2001) 433-455), exactly as ``Stack.with_panel`` does."""
+
+import tomllib
+import warnings
+
+import numpy as np
+import pytest
+
+import noisebudget as nb
+from noisebudget.bands import third_octave_bands
+from noisebudget.cli import main
+from noisebudget.errors import InputNote, ModelRangeWarning
+from noisebudget.media import Air
+
+BANDS = [100, 125, 160, 200, 250, 315, 400, 500, 630, 800, 1000]
+LAYERS = '''[[layer]]
+type = "plate"
+thickness = "1.6 mm"
+density = "2780 kg/m^3"
+youngs_modulus = "73.1 GPa"
+poisson_ratio = 0.33
+loss_factor = 0.01
+[[layer]]
+use = "blanket.glass-0.6pcf-limp"
+thickness = "50 mm"
+[[layer]]
+type = "air"
+thickness = "20 mm"
+[[layer]]
+use = "trim.honeycomb-glass-10"
+'''
+EXTERIOR = Air(243.15, 40000.0)
+CABIN = Air(295.15, 75262.0)
+
+
+def study(bay="", package=None):
+    n = len(BANDS)
+    package = package or '[package.zone.wall]\nstack = "wall.toml"\n'
+    return f'''
+[study]
+incidence = "field"
+[air.exterior]
+temperature = "-30 degC"
+pressure = "40 kPa"
+[air.cabin]
+temperature = "22 degC"
+pressure = "75.262 kPa"
+[cabin]
+volume = "50 m^3"
+bands_hz = {BANDS}
+reverberation_time = {["0.5 s"] * n}
+[[condition]]
+name = "cruise"
+bands_hz = {BANDS}
+levels_db = {[100] * n}
+[[condition.tone]]
+frequency = "105 Hz"
+level_db = 110
+[[zone]]
+name = "wall"
+area = "20 m^2"
+{bay}
+[[package]]
+name = "lined"
+{package}
+'''
+
+
+def _run(tmp_path, text, wall=LAYERS):
+    (tmp_path / "wall.toml").write_text(wall)
+    path = tmp_path / "s.toml"
+    path.write_text(text)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ModelRangeWarning)
+        return nb.run_study(path)
+
+
+def _direct(panel=None):
+    stack = nb.parse_stack(tomllib.loads(LAYERS), "wall.toml")
+    stack = nb.Stack(stack.layers, EXTERIOR, CABIN, labels=stack.labels)
+    if panel:
+        stack = stack.with_panel(*panel)
+    bands = third_octave_bands(BANDS[0], BANDS[-1])
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ModelRangeWarning)
+        return (stack.band_transmission_loss(bands, "field"),
+                -10 * np.log10(stack.average_transmission([105.0], "field")))
+
+
+def test_a_zone_bay_gives_the_tl_of_the_stack_in_that_bay(tmp_path):
+    # the study's TL table against Stack.with_panel(1.0, 1.4) directly, bands and tone;
+    # and without a bay, the infinite stack
+    bay = _run(tmp_path, study('panel_width = "1.0 m"\npanel_height = "1.4 m"'))
+    plain = _run(tmp_path, study())
+    tl_bay, tone_bay = _direct((1.0, 1.4))
+    tl_inf, tone_inf = _direct()
+    np.testing.assert_allclose(bay.tl["tl_db"], tl_bay, atol=1e-9)
+    np.testing.assert_allclose(plain.tl["tl_db"], tl_inf, atol=1e-9)
+    assert bay.tones["tl_db"][0] == pytest.approx(tone_bay[0], abs=1e-9)
+    assert plain.tones["tl_db"][0] == pytest.approx(tone_inf[0], abs=1e-9)
+    # a 1.4 m^2 bay radiates less than the infinite wall at low frequency (Sewell 1970)
+    assert bay.tl["tl_db"].iloc[0] > plain.tl["tl_db"].iloc[0] + 1.0
+
+
+def test_the_zone_bay_applies_to_every_package_and_overrides_a_stack_file_panel(tmp_path):
+    # a package given inline and one inheriting it both fill the zone's bay; a stack file's
+    # own [panel] is ignored with a note naming the zone's keys
+    inline = ('[package.zone.wall]\nlayer = [{ stack = "wall.toml" }]\n'
+              '[[package]]\nname = "copy"\nbased_on = "lined"\n')
+    text = study('panel_width = "1.0 m"\npanel_height = "1.4 m"', inline)
+    res = _run(tmp_path, text)
+    tl_bay, _ = _direct((1.0, 1.4))
+    for name in ("lined", "copy"):
+        np.testing.assert_allclose(res.tl[res.tl["package"] == name]["tl_db"], tl_bay,
+                                   atol=1e-9)
+    with pytest.warns(InputNote, match="the zone sets the bay"):
+        res = _run(tmp_path, study('panel_width = "1.0 m"\npanel_height = "1.4 m"'),
+                   '[panel]\nwidth = "0.5 m"\nheight = "0.2 m"\n' + LAYERS)
+    np.testing.assert_allclose(res.tl["tl_db"], tl_bay, atol=1e-9)
+
+
+@pytest.mark.parametrize("bay, key, words", [
+    ('panel_width = "1 m"', "zone[1].panel_width", "needs panel_height as well"),
+    ('panel_height = "1 m"', "zone[1].panel_height", "needs panel_width as well"),
+    ('panel_width = "5 m"\npanel_height = "4.5 m"', "zone[1].panel_width",
+     "the bay (5 m x 4.5 m = 22.5 m^2) is larger than the zone (20 m^2)"),
+    ('panel_width = "-1 m"\npanel_height = "1 m"', "zone[1].panel_width", "must be > 0"),
+])
+def test_bad_bays_are_refused_by_check_and_run(tmp_path, capsys, bay, key, words):
+    (tmp_path / "wall.toml").write_text(LAYERS)
+    path = tmp_path / "s.toml"
+    path.write_text(study(bay))
+    for argv in (["check", str(path)], ["run", str(path), "-o", str(tmp_path / "out")]):
+        assert main(argv) == 2
+        err = capsys.readouterr().err.splitlines()
+        assert any(line.startswith(f"{path}: {key}: ") and words in line for line in err), err
+    assert not (tmp_path / "out").exists()
