@@ -60,8 +60,7 @@ __all__ = ["average_rows", "average_transmissions", "band_transmissions", "batch
 _BLOCK = 8192        # points per block of the integrand: temporaries stay in the cache
 _ROWS = 4096         # rows (variant, frequency) per angle-quadrature call: bounded memory
 _FEATURE_STEPS = 3   # linear extrapolations towards a feature's pole
-_KNEE_STEPS = 1
-_SCAN = 0
+_KNEE_STEPS = 1     # ... and towards the knee at the range's end
 _INNER = 3.0        # angle tolerance inside band averages, per unit of the band tolerance
 _LOW_LOSS = 0.1      # |Im| / |Re| of rho and K below which a fluid layer resonates sharply
 
@@ -538,10 +537,7 @@ def _average_block(batch, var, f, incidence, theta_max, rtol):
         if batch.sheet is None:
             # the features' poles and the knee at the critical angle (or grazing)
             ends = [np.full((n, 1), a if a > 0 else 0.0) for a, _ in cmap.segments]
-            guesses = t_feats
-            if _SCAN and t_feats.shape[1]:
-                guesses = rows.dips(np.isfinite(t_feats).any(axis=1), cmap, _SCAN)
-            poles = np.concatenate([rows.poles(guesses, cmap, _FEATURE_STEPS),
+            poles = np.concatenate([rows.poles(t_feats, cmap, _FEATURE_STEPS),
                                     rows.poles(np.concatenate(ends, axis=1), cmap,
                                                _KNEE_STEPS)], axis=1)
             tau = paris_average_critical(rows.tau, n, cmap, poles=poles, rtol=rtol)
