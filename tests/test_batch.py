@@ -221,3 +221,35 @@ def test_demo_stacks_agree_with_the_nested_route():
                 got = s.transmission_loss(f, "field")
                 ref = -10 * np.log10(s._average_nested(f, "field", None, 3e-6))
                 np.testing.assert_allclose(got, ref, atol=0.01)
+
+
+def test_stacks_the_batch_cannot_take_keep_their_own_route():
+    # a mix of the demo's sidewalls in the zone's bay: the Biot foam package (the general
+    # solve, its closed-form azimuth mean from two solves) is not batched and gets, bit
+    # for bit, the band averages of its own nested route; the curved-skin variants are
+    # batched and each equals its own stack; the nested route (graded panels in u, no
+    # batch) agrees with the batch to 0.01 dB
+    from noisebudget.bands import band_average
+    from noisebudget.resources import data_path
+    from noisebudget.study import load_study
+
+    loaded = load_study(data_path("examples", "demo-study.toml"))
+    bay = next(z for z in loaded.inputs.zones if z.name == "sidewall").panel
+    walls = {p.name: p.stacks["sidewall"].with_panel(*bay) for p in loaded.inputs.packages}
+    foam = walls["foam barrier"]
+    assert foam._general and not batch.batchable(foam) and foam._azimuth_sheet() == 0
+    tiles = _variants(walls["BPF tiles"], 2)
+    stacks = [tiles[0], foam, walls["baseline"], tiles[1]]
+    assert all(batch.batchable(s) for s in stacks if s is not foam)
+    bands = third_octave_bands(200, 800)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ModelRangeWarning)
+        tau = batch.band_transmissions(stacks, bands)
+        own = band_average(lambda f: foam._average_nested(f, "field", None, 9e-3), bands,
+                           3e-3)
+        np.testing.assert_array_equal(tau[1], own)
+        for s, t in zip(stacks, tau, strict=True):
+            np.testing.assert_array_equal(-10 * np.log10(t), s.band_transmission_loss(bands))
+        nested = band_average(lambda f: tiles[1]._average_nested(f, "field", None, 9e-3),
+                              bands, 3e-3)
+    np.testing.assert_allclose(10 * np.log10(tau[3] / nested), 0.0, atol=0.01)
