@@ -42,7 +42,7 @@ __all__ = ["Panel", "RadiationTable", "window_angular_integral"]
 
 _GL_CACHE: dict[int, tuple[np.ndarray, np.ndarray]] = {}
 _ROWS: OrderedDict = OrderedDict()  # (width, height, k, kt_max) -> (degree, coefficients)
-_ROWS_SIZE = 8192                   # remembered table rows (at most ~1 kB each)
+_ROWS_SIZE = 8192                   # remembered table rows (up to ~200 numbers each)
 _ROWS_LOCK = threading.Lock()
 _CHUNK_POINTS = 2**22               # (row, Chebyshev point, radial node) values per block
 
@@ -270,7 +270,7 @@ def _table_rows(panel: Panel, k, kt_max):
             coef = np.einsum("ij,jk->ik", vals, basis)
             coef[:, 0] /= 2
             for i, row in zip(rows, coef, strict=True):  # store each distinct pair's row
-                found[i] = (m, row)
+                found[i] = (m, row.copy())    # its own copy: evicting it frees it
         with _ROWS_LOCK:
             for i in todo:  # remember the new rows
                 _ROWS[keys[i]] = found[i]
