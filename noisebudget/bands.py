@@ -114,7 +114,8 @@ def octave_bands(fmin: float = 31.5, fmax: float = 8000.0) -> Bands:
     return bands_between(fmin, fmax, 1)
 
 
-def band_average(func, bands: Bands, rtol: float = 3e-3, max_passes: int = 12) -> np.ndarray:
+def band_average(func, bands: Bands, rtol: float = 3e-3, max_passes: int = 12,
+                 groups: int | None = None) -> np.ndarray:
     """Band averages of a narrowband power quantity (e.g. tau), as energy.
 
     ``<q> = (1 / (f_u - f_l)) int q(f) df`` over each band (never an average of dB), by
@@ -125,18 +126,28 @@ def band_average(func, bands: Bands, rtol: float = 3e-3, max_passes: int = 12) -
     estimate is below ``rtol`` of the band value, so a resonance, a mass-air-mass dip or
     coincidence inside a band is resolved. ``func`` maps a 1-D frequency array to values
     of the same shape.
+
+    With ``groups`` (an int), the average is taken for that many independent quantities
+    at once (e.g. variants of a stack): ``func(group, f)`` receives the group index of
+    each frequency, each (group, band) is refined on its own, and the result is shaped
+    (groups, nb); a group's values do not depend on the other groups, bit for bit.
     """
-    from .incidence import GK15
+    from .incidence import GK15, _weighted_sum, adaptive_panels
 
     x, wk, wg = GK15
     nb = len(bands)
+    ng = 1 if groups is None else int(groups)
 
-    def panels(lo, hi):
+    def panels(row, lo, hi):
         c, h = (lo + hi) / 2, (hi - lo) / 2
         f = c[:, None] + h[:, None] * x
-        q = np.asarray(func(f.ravel()), dtype=float).reshape(f.shape)
-        ik, ig = h * (q @ wk), h * (q @ wg)
-        resasc = h * (np.abs(q - (ik / (2 * h))[:, None]) @ wk)
+        if groups is None:
+            q = func(f.ravel())
+        else:
+            q = func(np.repeat(row // nb, x.size), f.ravel())
+        q = np.asarray(q, dtype=float).reshape(f.shape)
+        ik, ig = h * _weighted_sum(q, wk), h * _weighted_sum(q, wg)
+        resasc = h * _weighted_sum(np.abs(q - (ik / (2 * h))[:, None]), wk)
         raw = np.abs(ik - ig)
         with np.errstate(divide="ignore", invalid="ignore"):
             err = np.where(resasc > 0, resasc * np.minimum(1.0, (200 * raw / resasc) ** 1.5),
@@ -147,26 +158,12 @@ def band_average(func, bands: Bands, rtol: float = 3e-3, max_passes: int = 12) -
     per = max(1, int(np.ceil(3 / bands.b)))
     cuts = bands.lower[:, None] * (bands.upper / bands.lower)[:, None] ** (
         np.arange(per + 1)[None, :] / per)
-    band = np.repeat(np.arange(nb), per)
-    lo, hi = cuts[:, :-1].ravel(), cuts[:, 1:].ravel()
-    val, err = panels(lo, hi)
-    for _ in range(max_passes):  # passes; each bisects one panel per unconverged band
-        total = np.bincount(band, val, nb)
-        bad = np.bincount(band, err, nb) > rtol * np.abs(total)
-        if not bad.any():
-            break
-        order = np.lexsort((-err, band))  # per band, largest error first
-        first = order[np.r_[True, band[order][1:] != band[order][:-1]]]
-        pick = first[bad[band[first]]]
-        mid = (lo[pick] + hi[pick]) / 2
-        v, e = panels(np.concatenate([lo[pick], mid]), np.concatenate([mid, hi[pick]]))
-        n = pick.size
-        hi_old = hi[pick].copy()
-        hi[pick], val[pick], err[pick] = mid, v[:n], e[:n]
-        lo, hi = np.concatenate([lo, mid]), np.concatenate([hi, hi_old])
-        val, err = np.concatenate([val, v[n:]]), np.concatenate([err, e[n:]])
-        band = np.concatenate([band, band[pick]])
-    return np.bincount(band, val, nb) / (bands.upper - bands.lower)
+    row = np.repeat(np.arange(ng * nb), per)
+    lo = np.tile(cuts[:, :-1].ravel(), ng)
+    hi = np.tile(cuts[:, 1:].ravel(), ng)
+    total = adaptive_panels(panels, row, lo, hi, ng * nb, rtol, max_passes, per_pass=1)
+    out = total.reshape(ng, nb) / (bands.upper - bands.lower)
+    return out[0] if groups is None else out
 
 
 def a_weighting(f_hz) -> np.ndarray:

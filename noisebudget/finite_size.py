@@ -32,6 +32,8 @@ transmission loss at low frequency.
 
 from __future__ import annotations
 
+import threading
+from collections import OrderedDict
 from dataclasses import dataclass
 
 import numpy as np
@@ -39,6 +41,10 @@ import numpy as np
 __all__ = ["Panel", "RadiationTable", "window_angular_integral"]
 
 _GL_CACHE: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+_ROWS: OrderedDict = OrderedDict()  # (width, height, k, kt_max) -> (degree, coefficients)
+_ROWS_SIZE = 8192                   # remembered table rows (up to ~200 numbers each)
+_ROWS_LOCK = threading.Lock()
+_CHUNK_POINTS = 2**22               # (row, Chebyshev point, radial node) values per block
 
 
 def _gauss_legendre(n: int):
@@ -91,17 +97,29 @@ class Panel:
         """S in m^2."""
         return self.width * self.height
 
-    def _radial_nodes(self, kmax: float):
-        """Gauss-Legendre nodes and weights on [0, D], split at the two side lengths (where
-        P(r) has kinks), enough for oscillations of wavenumber ``kmax``."""
+    def _node_counts(self, kmax) -> np.ndarray:
+        """Gauss-Legendre nodes per segment of [0, D] (split at the two side lengths, where
+        P(r) has kinks), enough for oscillations of wavenumber ``kmax`` (array): (..., 3),
+        0 for an empty segment."""
+        lengths = np.diff(self._edges())
+        kmax = np.asarray(kmax, dtype=float)[..., None]
+        n = 4 * np.ceil((8 + 0.45 * kmax * lengths) / 4).astype(int)  # ~1e-6 relative
+        return np.where(lengths > 0, n, 0)
+
+    def _edges(self):
         a, b = sorted((self.width, self.height))
-        edges = [0.0, a, b, np.hypot(a, b)]
+        return np.array([0.0, a, b, np.hypot(a, b)])
+
+    def _radial_nodes(self, kmax: float, counts=None):
+        """Nodes r and weights ``w P(r)`` on [0, D] for wavenumber ``kmax`` (or for the
+        node ``counts`` per segment of :meth:`_node_counts`)."""
+        edges = self._edges()
+        counts = self._node_counts(kmax) if counts is None else counts
         r, w = [], []
-        for lo, hi in zip(edges[:-1], edges[1:], strict=True):
-            if hi <= lo:
+        for lo, hi, n in zip(edges[:-1], edges[1:], counts, strict=True):  # 3 segments
+            if n == 0:
                 continue
-            n = 4 * int(np.ceil((8 + 0.45 * kmax * (hi - lo)) / 4))  # ~1e-6 relative
-            x, wx = _gauss_legendre(n)
+            x, wx = _gauss_legendre(int(n))
             r.append((hi - lo) / 2 * x + (hi + lo) / 2)
             w.append((hi - lo) / 2 * wx)
         r, w = np.concatenate(r), np.concatenate(w)
@@ -156,24 +174,22 @@ class RadiationTable:
     integration's tolerance). Frequencies are grouped by
     the degree they need (a loop over a few groups, not over frequencies); coefficients
     from values at Chebyshev points (discrete cosine transform).
+
+    A row's coefficients depend on its own ``(k, kt_max)`` only (its own radial nodes,
+    sums in a fixed order), so they are computed once per distinct pair and bay and
+    remembered (:func:`_table_rows`): the variants of a trade study share their
+    frequencies, and a row does not depend, bit for bit, on the rows built with it.
     """
 
     def __init__(self, panel: Panel, k, kt_max):
-        self.kt_max = np.maximum(kt_max, 1e-12)
-        d = np.hypot(panel.width, panel.height)
-        need = 12 + np.ceil(0.5 * self.kt_max * d).astype(int)
-        self.degree = 4 * np.ceil(need / 4).astype(int)
-        self.coef = np.zeros((k.size, int(self.degree.max(initial=4))))
-        for deg in np.unique(self.degree):  # loop over degree groups
-            rows = np.flatnonzero(self.degree == deg)
-            j = np.arange(deg)
-            y = np.cos(np.pi * (j + 0.5) / deg)
-            kt = self.kt_max[rows, None] * np.sqrt((y + 1) / 2)
-            vals = panel.radiation_efficiency(k[rows, None], kt)
-            basis = np.cos(np.pi * np.outer(j + 0.5, j) / deg) * (2.0 / deg)
-            coef = vals @ basis
-            coef[:, 0] /= 2
-            self.coef[rows, :deg] = coef
+        k = np.asarray(k, dtype=float)
+        self.kt_max = np.maximum(np.asarray(kt_max, dtype=float), 1e-12)
+        pairs = np.stack([np.broadcast_to(k, self.kt_max.shape), self.kt_max], axis=-1)
+        uniq, back = np.unique(pairs.reshape(-1, 2), axis=0, return_inverse=True)
+        degree, coef = _table_rows(panel, uniq[:, 0], uniq[:, 1])
+        back = back.reshape(-1)
+        self.degree = degree[back]
+        self.coef = coef[back]
 
     def __call__(self, rows, kt) -> np.ndarray:
         """``sigma`` at the frequencies ``rows`` (index array) and trace wavenumbers
@@ -183,12 +199,85 @@ class RadiationTable:
         y = np.clip(2 * (kt / self.kt_max[rows, None]) ** 2 - 1, -1.0, 1.0)
         coef = self.coef[rows]
         out = np.empty(kt.shape)
-        for deg in np.unique(self.degree[rows]):  # loop over degree groups
-            sel = self.degree[rows] == deg
+        # rows in classes of degree up to a power of two, each class's series run to its
+        # largest degree: a row's coefficients past its own degree are zero, which keeps
+        # its b_n exactly zero until its own degree (the same numbers, bit for bit, as a
+        # run to its own degree; a few classes instead of a group per degree)
+        degree = self.degree[rows]
+        size = 2 ** np.ceil(np.log2(np.maximum(degree, 16))).astype(int)
+        for cls in np.unique(size):  # loop over a few degree classes
+            sel = size == cls
+            deg = int(degree[sel].max())
             yy, cc = y[sel], coef[sel]
+            y2 = 2 * yy
             b1 = np.zeros_like(yy)
             b2 = np.zeros_like(yy)
-            for n in range(deg - 1, 0, -1):  # Clenshaw over series terms
-                b1, b2 = cc[:, n:n + 1] + 2 * yy * b1 - b2, b1
+            tmp = np.empty_like(yy)
+            for n in range(deg - 1, 0, -1):  # Clenshaw over series terms, in place:
+                np.multiply(y2, b1, out=tmp)  # b_n = c_n + 2 y b_(n+1) - b_(n+2)
+                np.add(cc[:, n:n + 1], tmp, out=tmp)
+                tmp -= b2
+                b2, b1, tmp = b1, tmp, b2
             out[sel] = cc[:, :1] + yy * b1 - b2
         return out
+
+
+def _table_rows(panel: Panel, k, kt_max):
+    """Chebyshev degree (n,) and coefficients (n, max degree) of ``sigma(k, kt)`` on
+    ``0 <= kt <= kt_max`` for distinct pairs ``(k[i], kt_max[i])``, remembered per bay.
+
+    Each row uses its own radial nodes (:meth:`Panel._node_counts` of ``k + kt_max``) and
+    sums in a fixed order (``np.einsum``, no BLAS blocking), so its numbers do not depend
+    on the other rows; rows are grouped by degree and node counts (a loop over a few
+    groups).
+    """
+    from scipy import special
+
+    n = k.size
+    keys = [(panel.width, panel.height, float(a), float(b)) for a, b in zip(k, kt_max,
+                                                                              strict=True)]
+    found = [None] * n
+    with _ROWS_LOCK:
+        for i, key in enumerate(keys):  # dictionary look-ups of the distinct pairs
+            hit = _ROWS.get(key)
+            if hit is not None:
+                _ROWS.move_to_end(key)
+                found[i] = hit
+    todo = np.array([i for i in range(n) if found[i] is None], dtype=int)
+    if todo.size:
+        d = np.hypot(panel.width, panel.height)
+        deg = 4 * np.ceil((12 + np.ceil(0.5 * kt_max[todo] * d)) / 4).astype(int)
+        counts = panel._node_counts(k[todo] + kt_max[todo])
+        groups = np.concatenate([deg[:, None], counts], axis=1)
+        kinds, which = np.unique(groups, axis=0, return_inverse=True)
+        which = which.reshape(-1)
+        for g, kind in enumerate(kinds):  # loop over (degree, nodes) groups
+            sel = np.flatnonzero(which == g)
+            rows = todo[sel]
+            m = int(kind[0])
+            r, w = panel._radial_nodes(0.0, kind[1:])
+            j = np.arange(m)
+            y = np.cos(np.pi * (j + 0.5) / m)
+            kt = kt_max[rows, None] * np.sqrt((y + 1) / 2)          # (rows, m)
+            vals = np.empty((rows.size, m))
+            step = max(1, _CHUNK_POINTS // (m * r.size))
+            for i in range(0, rows.size, step):  # memory-sized blocks of rows
+                sl = slice(i, i + step)
+                q = special.j0(kt[sl, :, None] * r) * np.sin(k[rows[sl], None, None] * r)
+                vals[sl] = np.einsum("ijk,k->ij", q, w)
+            vals *= k[rows, None] / (2 * np.pi * panel.area)
+            basis = np.cos(np.pi * np.outer(j + 0.5, j) / m) * (2.0 / m)
+            coef = np.einsum("ij,jk->ik", vals, basis)
+            coef[:, 0] /= 2
+            for i, row in zip(rows, coef, strict=True):  # store each distinct pair's row
+                found[i] = (m, row.copy())    # its own copy: evicting it frees it
+        with _ROWS_LOCK:
+            for i in todo:  # remember the new rows
+                _ROWS[keys[i]] = found[i]
+            while len(_ROWS) > _ROWS_SIZE:
+                _ROWS.popitem(last=False)
+    degree = np.array([f[0] for f in found], dtype=int)
+    coef = np.zeros((n, int(degree.max(initial=4))))
+    for i, (m, row) in enumerate(found):  # assemble the rows
+        coef[i, :m] = row
+    return degree, coef

@@ -32,9 +32,10 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["INCIDENCE", "GK15", "adaptive_gauss_kronrod", "azimuth_average",
+__all__ = ["INCIDENCE", "GK15", "adaptive_gauss_kronrod", "adaptive_panels", "azimuth_average",
            "azimuth_mean_inverse", "azimuth_mean_inverse_square", "azimuth_mean_ratio_square",
-           "default_theta_max_deg", "paris_average"]
+           "default_theta_max_deg", "graded_panels", "paris_average", "paris_average_critical",
+           "CriticalMap"]
 
 INCIDENCE = ("normal", "field", "diffuse")
 
@@ -56,6 +57,7 @@ GK15 = (np.concatenate([-_XK[:-1], _XK[::-1]]), np.concatenate([_WK[:-1], _WK[::
 
 _GRADING = 1.0 / 8.0   # ratio of successive graded panels
 _LEVELS = 2            # graded panels towards a sharp point: down to 8^-3 of the half
+_FRACTIONS = np.concatenate([[0.0], _GRADING ** np.arange(_LEVELS, 0, -1), [1.0]])
 
 
 def default_theta_max_deg(incidence: str) -> float:
@@ -63,32 +65,15 @@ def default_theta_max_deg(incidence: str) -> float:
     return {"normal": 0.0, "field": 78.0, "diffuse": 90.0}[incidence]
 
 
-def _initial_panels(k0, sharp_kt, umax):
-    """Panel edges (nf, m) split at sharp points and graded towards them and grazing.
-
-    Sharp points given as NaN (a feature absent at that frequency) are ignored.
-    """
-    nf = k0.shape[0]
-    if sharp_kt is None or sharp_kt.shape[1] == 0:
-        splits = np.empty((nf, 0))
-    else:
-        u = (sharp_kt / k0[:, None]) ** 2
-        splits = np.sort(np.clip(np.where(np.isnan(u), umax, u), 0.0, umax), axis=1)
-    edges = np.concatenate([np.zeros((nf, 1)), splits, np.full((nf, 1), umax)], axis=1)
-    fractions = np.concatenate([[0.0], _GRADING ** np.arange(_LEVELS, 0, -1), [1.0]])
-    lo, hi = [], []
-    npanel = edges.shape[1] - 1
-    for k in range(npanel):  # loop over split points (layers), not frequencies
-        a, b = edges[:, k:k + 1], edges[:, k + 1:k + 2]
-        mid = (a + b) / 2
-        for end, other, graded in ((a, mid, k > 0), (b, mid, True)):
-            if graded:
-                pts = end + (other - end) * fractions[None, :]
-            else:
-                pts = end + (other - end) * np.array([[0.0, 0.5, 1.0]])
-            lo.append(np.minimum(pts[:, :-1], pts[:, 1:]))
-            hi.append(np.maximum(pts[:, :-1], pts[:, 1:]))
-    return np.concatenate(lo, axis=1), np.concatenate(hi, axis=1)
+def _weighted_sum(q, w):
+    """``sum_i q[..., i] w[i]`` in a fixed order (node by node), so that each row's value
+    does not depend on how many rows are summed with it (a BLAS product may block rows
+    differently by count)."""
+    out = None
+    for i in np.flatnonzero(w):  # loop over the 15 quadrature nodes
+        term = q[..., i] * w[i]
+        out = term if out is None else out + term
+    return out
 
 
 def _gk(fn, rows, lo, hi):
@@ -97,17 +82,176 @@ def _gk(fn, rows, lo, hi):
     c, h = (lo + hi) / 2, (hi - lo) / 2
     nodes = c[..., None] + h[..., None] * x
     q = fn(rows, nodes.reshape(len(rows), -1)).reshape(nodes.shape)
-    ik = h * (q @ wk)
-    ig = h * (q @ wg)
+    ik = h * _weighted_sum(q, wk)
+    ig = h * _weighted_sum(q, wg)
     # QUADPACK's error scaling (Piessens et al. 1983, qk15): the raw |K - G| is far too
     # pessimistic where the integrand is smooth
     safe_h = np.where(h > 0, h, 1.0)
-    resasc = h * (np.abs(q - (ik / (2 * safe_h))[..., None]) @ wk)
+    resasc = h * _weighted_sum(np.abs(q - (ik / (2 * safe_h))[..., None]), wk)
     raw = np.abs(ik - ig)
     with np.errstate(divide="ignore", invalid="ignore"):
         scaled = np.where(resasc > 0, resasc * np.minimum(1.0, (200 * raw / resasc) ** 1.5),
                           raw)
     return ik, scaled
+
+
+def _row_sums(row, values, n):
+    """Per-row sums of flat panel values, added in the panels' order (``bincount`` adds
+    sequentially), so a row's sum depends on its own panels only."""
+    return np.bincount(row, values, n)
+
+
+def adaptive_panels(gk, row, lo, hi, nrows: int, rtol: float = 3e-3, max_passes: int = 60,
+                    per_pass: int = 8, aux=None) -> np.ndarray:
+    """Integrals per row over its own list of panels, refined per row.
+
+    Parameters
+    ----------
+    gk : callable
+        ``gk(row, lo, hi)`` returns the integral and error estimate of each panel
+        ``lo .. hi`` of row ``row`` (flat arrays).
+    row, lo, hi : ndarray (p,)
+        The initial panels, flat: panel ``i`` belongs to row ``row[i]``.
+    nrows : int
+        Number of rows.
+    rtol : float
+        Estimated relative accuracy at every row.
+    max_passes, per_pass : int
+        Refinement passes at most, panels bisected per row and pass.
+    aux : ndarray (p, k), optional
+        Data that stays with each panel and its halves (e.g. the panel's change of
+        variable); then ``gk(row, lo, hi, aux)``.
+
+    Returns
+    -------
+    ndarray (nrows,)
+
+    Notes
+    -----
+    Each pass bisects the ``per_pass`` panels with the largest error of every row whose
+    summed error exceeds ``rtol`` of its integral (ties broken by the panels' order;
+    panels without error are never bisected). Only those panels are evaluated: a row's
+    result depends on its own integrand alone, bit for bit, whatever rows share the
+    call (the left half replaces its panel, the right half is appended, and sums run in
+    the panels' order).
+    """
+    row = np.asarray(row, dtype=np.intp)
+    lo, hi = np.array(lo, dtype=float), np.array(hi, dtype=float)
+    evaluate = gk
+    if aux is not None:
+        aux = np.asarray(aux)
+
+        def evaluate(r, a, b, which):
+            return gk(r, a, b, aux[which])
+    val, err = (gk(row, lo, hi) if aux is None else gk(row, lo, hi, aux))
+    for _ in range(max_passes):  # refinement passes, each vectorised over rows
+        bad = _row_sums(row, err, nrows) > rtol * np.abs(_row_sums(row, val, nrows))
+        idx = np.flatnonzero(bad[row] & (err > 0))
+        if idx.size == 0:
+            break
+        order = idx[np.lexsort((-err[idx], row[idx]))]  # by row, largest error first
+        r = row[order]
+        first = np.flatnonzero(np.r_[True, r[1:] != r[:-1]])
+        rank = np.arange(r.size) - np.repeat(first, np.diff(np.r_[first, r.size]))
+        pick = np.sort(order[rank < per_pass])
+        a, b = lo[pick], hi[pick]
+        m = (a + b) / 2
+        n = pick.size
+        args = (np.concatenate([row[pick], row[pick]]), np.concatenate([a, m]),
+                np.concatenate([m, b]))
+        v, e = (evaluate(*args) if aux is None
+                else evaluate(*args, np.concatenate([pick, pick])))
+        hi[pick], val[pick], err[pick] = m, v[:n], e[:n]
+        if aux is not None:
+            aux = np.concatenate([aux, aux[pick]])
+        row = np.concatenate([row, row[pick]])
+        lo, hi = np.concatenate([lo, m]), np.concatenate([hi, b])
+        val, err = np.concatenate([val, v[n:]]), np.concatenate([err, e[n:]])
+    return _row_sums(row, val, nrows)
+
+
+def _flat_gk(fn, node_map=None):
+    """``gk(row, lo, hi[, aux])`` of :func:`adaptive_panels` for an integrand ``fn(rows, x)``.
+
+    The panels of one row go side by side into one row of ``x`` (one call per distinct
+    number of panels per row: a loop over a few counts), so ``fn`` sees each row once.
+    With ``node_map(aux, nodes) -> (x, dx/dnode)`` each panel has its own change of
+    variable, given by its ``aux`` data.
+    """
+    def gk(row, lo, hi, aux=None):
+        order = np.argsort(row, kind="stable")
+        r = row[order]
+        starts = np.flatnonzero(np.r_[True, r[1:] != r[:-1]])
+        counts = np.diff(np.r_[starts, r.size])
+        val, err = np.empty(row.size), np.empty(row.size)
+        for c in np.unique(counts):  # loop over panel counts, not rows
+            first = starts[counts == c]
+            panels = order[first[:, None] + np.arange(c)]
+            f = fn
+            if node_map is not None:
+                def f(rows, nodes, a=aux[panels]):
+                    x, dx = node_map(a[:, :, None], nodes.reshape(a.shape[0], a.shape[1], -1))
+                    return fn(rows, x.reshape(len(rows), -1)) * dx.reshape(len(rows), -1)
+            val[panels], err[panels] = _gk(f, r[first], lo[panels], hi[panels])
+        return val, err
+    return gk
+
+
+def graded_panels(edges, graded):
+    """Initial panels between break points, graded towards the marked ones.
+
+    Parameters
+    ----------
+    edges : ndarray (n, p)
+        Break points of each row, ascending (the row's range is ``edges[:, 0] ..
+        edges[:, -1]``); repeated points make empty intervals, which are dropped.
+    graded : ndarray of bool (n, p)
+        Points to grade towards: each interval ending there is halved and its half
+        next to the point split geometrically (ratio 1/8, two levels: the panel at the
+        point is 1/64 of the half).
+
+    Returns
+    -------
+    row, lo, hi : ndarray (m,)
+        Flat panels, each row's in ascending order (an interval with no graded end is
+        one panel).
+    """
+    n, p = edges.shape
+    a, b = edges[:, :-1], edges[:, 1:]
+    ga, gb = graded[:, :-1], graded[:, 1:]
+    mid = (a + b) / 2
+    split = ga | gb
+    parts = []  # (lo, hi, keep) of each panel slot, in ascending order within an interval
+    f = _FRACTIONS
+    for j in range(len(f) - 1):  # graded slots from the left end towards the middle
+        lo, hi = a + (mid - a) * f[j], a + (mid - a) * f[j + 1]
+        parts.append((lo, hi, ga))
+    parts.append((a, mid, split & ~ga))                   # plain left half
+    parts.append((a, b, ~split))                          # whole interval
+    parts.append((mid, b, split & ~gb))                   # plain right half
+    for j in range(len(f) - 1, 0, -1):  # graded slots from the middle towards the right end
+        lo, hi = b + (mid - b) * f[j], b + (mid - b) * f[j - 1]
+        parts.append((lo, hi, gb))
+    lo = np.stack([q[0] for q in parts], axis=2)          # (n, p - 1, slots)
+    hi = np.stack([q[1] for q in parts], axis=2)
+    keep = np.stack([q[2] for q in parts], axis=2) & (hi > lo)
+    row = np.broadcast_to(np.arange(n)[:, None, None], lo.shape)
+    return row[keep], lo[keep], hi[keep]
+
+
+def _initial_panels(k0, sharp_kt, umax):
+    """Flat panels on ``0 .. umax`` split at the sharp points inside the range, graded
+    towards them and towards grazing (sharp points given as NaN are absent)."""
+    nf = k0.shape[0]
+    if sharp_kt is None or sharp_kt.shape[1] == 0:
+        splits = np.empty((nf, 0))
+    else:
+        u = (sharp_kt / k0[:, None]) ** 2
+        splits = np.sort(np.where((u > 0) & (u < umax), u, umax), axis=1)
+    edges = np.concatenate([np.zeros((nf, 1)), splits, np.full((nf, 1), umax)], axis=1)
+    graded = np.ones(edges.shape, dtype=bool)
+    graded[:, 0] = False
+    return graded_panels(edges, graded)
 
 
 def adaptive_gauss_kronrod(fn, lo, hi, rtol: float = 3e-3, max_passes: int = 60,
@@ -117,10 +261,10 @@ def adaptive_gauss_kronrod(fn, lo, hi, rtol: float = 3e-3, max_passes: int = 60,
     Parameters
     ----------
     fn : callable
-        ``fn(rows, x)`` returns the integrand at the rows ``rows`` (index array) and
-        abscissae ``x`` (len(rows), m).
+        ``fn(rows, x)`` returns the integrand at the rows ``rows`` (index array, rows may
+        repeat) and abscissae ``x`` (len(rows), m).
     lo, hi : ndarray (n, p)
-        Initial panels of each row (zero-width panels are allowed and cost nothing).
+        Initial panels of each row (zero-width panels are dropped).
     rtol : float
         Estimated relative accuracy at every row.
     max_passes, per_pass : int
@@ -133,35 +277,14 @@ def adaptive_gauss_kronrod(fn, lo, hi, rtol: float = 3e-3, max_passes: int = 60,
     Notes
     -----
     15-point Gauss-Kronrod panels with the embedded 7-point Gauss rule and QUADPACK's
-    error scaling (Piessens et al. 1983); each pass bisects the ``per_pass`` panels with
-    the largest error of every row whose summed error exceeds ``rtol`` of its integral.
+    error scaling (Piessens et al. 1983), refined by :func:`adaptive_panels`.
     """
-    lo, hi = np.array(lo, dtype=float), np.array(hi, dtype=float)
+    lo, hi = np.asarray(lo, dtype=float), np.asarray(hi, dtype=float)
     n = lo.shape[0]
-    val, err = _gk(fn, np.arange(n), lo, hi)
-    for _ in range(max_passes):  # refinement passes, each vectorised over rows
-        total = val.sum(axis=1)
-        todo = np.flatnonzero(err.sum(axis=1) > rtol * np.abs(total))
-        if todo.size == 0:
-            break
-        k = min(per_pass, lo.shape[1])
-        pick = np.argpartition(-err[todo], k - 1, axis=1)[:, :k]
-        a = np.take_along_axis(lo[todo], pick, 1)
-        b = np.take_along_axis(hi[todo], pick, 1)
-        m = (a + b) / 2
-        v, e = _gk(fn, todo, np.concatenate([a, m], 1), np.concatenate([m, b], 1))
-        # left halves replace the picked panels; right halves are appended (other rows
-        # get empty panels so that the arrays stay rectangular)
-        lo_t, hi_t, val_t, err_t = lo[todo], hi[todo], val[todo], err[todo]
-        np.put_along_axis(hi_t, pick, m, 1)
-        np.put_along_axis(val_t, pick, v[:, :k], 1)
-        np.put_along_axis(err_t, pick, e[:, :k], 1)
-        lo[todo], hi[todo], val[todo], err[todo] = lo_t, hi_t, val_t, err_t
-        new = np.zeros((4, n, k))
-        new[0][todo], new[1][todo], new[2][todo], new[3][todo] = m, b, v[:, k:], e[:, k:]
-        lo, hi = np.concatenate([lo, new[0]], 1), np.concatenate([hi, new[1]], 1)
-        val, err = np.concatenate([val, new[2]], 1), np.concatenate([err, new[3]], 1)
-    return val.sum(axis=1)
+    keep = hi > lo
+    row = np.broadcast_to(np.arange(n)[:, None], lo.shape)[keep]
+    return adaptive_panels(_flat_gk(fn), row, lo[keep], hi[keep], n, rtol, max_passes,
+                           per_pass)
 
 
 def paris_average(tau_fn, k0, sharp_kt, theta_max: float, rtol: float = 3e-3,
@@ -176,8 +299,8 @@ def paris_average(tau_fn, k0, sharp_kt, theta_max: float, rtol: float = 3e-3,
     k0 : ndarray (nf,)
         Source-side wavenumbers.
     sharp_kt : ndarray (nf, p) or None
-        Trace wavenumbers of known sharp features (plate coincidence); NaN where absent
-        (frequencies with the same features present are integrated together).
+        Trace wavenumbers of known sharp features (plate coincidence); NaN where absent;
+        only those inside the range split it.
     theta_max : float
         Limit angle in rad.
     rtol : float
@@ -189,28 +312,188 @@ def paris_average(tau_fn, k0, sharp_kt, theta_max: float, rtol: float = 3e-3,
     Returns
     -------
     ndarray (nf,)
+
+    Notes
+    -----
+    The range of ``u = sin^2 theta`` is split at each frequency's own features inside
+    it and graded towards them and towards grazing (:func:`graded_panels`); a feature
+    outside the range costs nothing. :func:`paris_average_critical` is the faster form
+    for transmission coefficients, whose receiving side's critical angle it knows.
     """
     k0 = np.asarray(k0, dtype=float)
     umax = np.sin(theta_max) ** 2
-    if sharp_kt is not None and np.isnan(sharp_kt).any():
-        # frequencies lacking some features: integrate each group of frequencies with the
-        # same features present on its own (a loop over groups), so that absent features
-        # cost no panels
-        present = ~np.isnan(sharp_kt)
-        groups, which = np.unique(present, axis=0, return_inverse=True)
-        out = np.empty(k0.shape[0])
-        for g, keep in enumerate(groups):
-            rows = np.flatnonzero(which.ravel() == g)
-            out[rows] = paris_average(lambda r, th, rows=rows: tau_fn(rows[r], th), k0[rows],
-                                      sharp_kt[np.ix_(rows, keep)], theta_max, rtol,
-                                      max_passes, per_pass)
-        return out
-    lo, hi = _initial_panels(k0, sharp_kt, umax)
+    row, lo, hi = _initial_panels(k0, sharp_kt, umax)
 
     def integrand(rows, u):
         return tau_fn(rows, np.arcsin(np.sqrt(np.clip(u, 0.0, 1.0))))
 
-    return adaptive_gauss_kronrod(integrand, lo, hi, rtol, max_passes, per_pass) / umax
+    return adaptive_panels(_flat_gk(integrand), row, lo, hi, k0.shape[0], rtol, max_passes,
+                           per_pass) / umax
+
+
+class CriticalMap:
+    """The variable of :func:`paris_average_critical` for a receiving side that turns
+    evanescent at ``u = u_critical`` (``u = sin^2 theta``).
+
+    Near ``u_e = min(u_critical, 1)`` a transmission coefficient has a square-root edge
+    (the receiving air's normal wavenumber ``k1 sqrt(u_critical - u)``, or the source's
+    ``cos theta = sqrt(1 - u)``), which GK panels resolve only by grading. With
+    ``u = u_e (1 - t^2)``, ``du = 2 u_e t dt`` on ``t_min .. 1`` the integrand is an
+    analytic function of ``t`` there (every transfer-matrix entry depends on ``u``, the
+    receiving admittance on ``t``), so one panel usually reaches the tolerance wherever
+    no layer has a sharp feature inside the range (removing an endpoint singularity by a
+    change of variable: Davis & Rabinowitz, Methods of Numerical Integration, 1984,
+    sec. 2.9). Past the critical angle (only a finite bay radiates there) ``u = u_critical
+    + t^2`` on ``-sqrt(u_max - u_critical) .. 0``, again analytic in ``t``.
+
+    Parameters
+    ----------
+    u_critical : float
+        ``(c1 / c2)^2`` of the source and receiving airs (1 for equal airs; above 1 when
+        the receiving air is the slower one: no critical angle).
+    umax : float
+        ``sin^2 theta_max``.
+    beyond : bool
+        Whether the range continues past the critical angle.
+    """
+
+    def __init__(self, u_critical: float, umax: float, beyond: bool = False):
+        self.u_critical, self.umax = float(u_critical), float(umax)
+        self.u_e = min(self.u_critical, 1.0)
+        u_a = min(self.umax, self.u_critical)
+        self.segments = [(float(np.sqrt(max(0.0, 1.0 - u_a / self.u_e))), 1.0)]
+        if beyond and self.u_critical < self.umax:
+            self.segments.append((-float(np.sqrt(self.umax - self.u_critical)), 0.0))
+
+    def to_t(self, u):
+        """``t`` of the points ``u`` inside the range (NaN elsewhere and at its ends)."""
+        u = np.asarray(u, dtype=float)
+        lo, hi = self.segments[0]
+        with np.errstate(invalid="ignore"):
+            t = np.sqrt(1.0 - u / self.u_e)
+            t = np.where((t > lo) & (t < hi), t, np.nan)
+            if len(self.segments) > 1:
+                w = -np.sqrt(u - self.u_critical)
+                t = np.where((u > self.u_critical) & (u < self.umax), w, t)
+        return t
+
+    def __call__(self, t):
+        """``(u, q, du/dt)`` at ``t``, with ``q = u_critical - u`` free of cancellation."""
+        t = np.asarray(t, dtype=float)
+        tt = t * t
+        inside = t >= 0
+        u = np.where(inside, self.u_e * (1.0 - tt), self.u_critical + tt)
+        q = np.where(inside, (self.u_critical - self.u_e) + self.u_e * tt, -tt)
+        return u, q, np.where(inside, 2.0 * self.u_e * t, -2.0 * t)
+
+
+_NEAR = 0.25    # poles narrower than this share of their segment shape the panels
+
+
+def paris_average_critical(fn, nrows: int, cmap: CriticalMap, poles=None, splits=None,
+                           rtol: float = 3e-3, max_passes: int = 60,
+                           per_pass: int = 8) -> np.ndarray:
+    """Paris average ``(1 / u_max) int_0^u_max g(u) du`` in the variable of a
+    :class:`CriticalMap`, with panels shaped by the integrand's near-real poles.
+
+    Parameters
+    ----------
+    fn : callable
+        ``fn(rows, u, q)`` returns ``g`` at the rows ``rows`` (index array, may repeat) and
+        ``u = sin^2 theta`` (len(rows), m), with ``q = u_critical - u`` computed without
+        cancellation (the receiving air's normal wavenumber is ``k1 sqrt(q)``, and
+        ``-j k1 sqrt(-q)`` where ``q < 0``).
+    nrows : int
+        Number of rows (e.g. pairs of variant and frequency).
+    cmap : CriticalMap
+    poles : complex ndarray (nrows, p), optional
+        Poles of the integrand near the range, in ``t`` (NaN where absent): each
+        narrower than a quarter of its segment splits the range at its real part, and
+        the panels next to it take the variable ``tau`` of ``t = x + y sinh(tau)``
+        (``x + j y`` the pole), which turns the Lorentzian ``1 / ((t - x)^2 + y^2)`` into
+        the smooth ``1 / (y cosh tau)`` (the sinh transformation of Johnston & Elliott,
+        Int. J. Numer. Meth. Eng. 62 (2005) 564, for nearly singular integrands).
+    splits : ndarray (nrows, p), optional
+        Further break points in ``t`` (NaN where absent), e.g. sharp features whose pole
+        is not known.
+    rtol, max_passes, per_pass
+        As :func:`adaptive_panels`.
+
+    Returns
+    -------
+    ndarray (nrows,)
+    """
+    n = nrows
+    if poles is None:
+        poles = np.empty((n, 0), complex)
+    if splits is None:
+        splits = np.empty((n, 0))
+    px, py = poles.real, np.abs(poles.imag)
+    if poles.shape[1] > 1:  # the same pole found twice (within a tenth of its width): once
+        order = np.argsort(px, axis=1)
+        px, py = np.take_along_axis(px, order, 1), np.take_along_axis(py, order, 1)
+        twice = np.zeros(px.shape, bool)
+        twice[:, 1:] = np.abs(np.diff(px, axis=1)) < 0.1 * np.minimum(py[:, 1:], py[:, :-1])
+        px = np.where(twice, np.nan, px)
+    rows, los, his, maps = [], [], [], []
+    for a, b in cmap.segments:  # one or two segments
+        # a pole on the axis itself is a zero of the numerator too (the half-spaces'
+        # admittances at grazing): not a peak
+        near = np.isfinite(px) & (py > 1e-9 * (b - a)) & (py < _NEAR * (b - a))
+        centre = near & (px > a) & (px < b)
+        sp = np.where((splits > a) & (splits < b), splits, b)
+        edges = np.concatenate([np.full((n, 1), a), np.where(centre, px, b), sp,
+                                np.full((n, 1), b)], axis=1)
+        is_pole = np.concatenate([np.zeros((n, 1), bool), centre,
+                                  np.zeros(sp.shape, bool), np.zeros((n, 1), bool)], axis=1)
+        order = np.argsort(edges, axis=1, kind="stable")
+        edges = np.take_along_axis(edges, order, 1)
+        is_pole = np.take_along_axis(is_pole, order, 1)
+        # between two pole centres: split in the middle, one pole for each half
+        both = is_pole[:, :-1] & is_pole[:, 1:]
+        mids = np.where(both, (edges[:, :-1] + edges[:, 1:]) / 2, b)
+        edges = np.sort(np.concatenate([edges, mids], axis=1), axis=1)
+        lo, hi = edges[:, :-1], edges[:, 1:]
+        # each interval's nearest pole (distance in widths), if near enough
+        x, y = px[:, None, :], np.where(near, py, np.inf)[:, None, :]
+        gap = np.maximum(np.maximum(lo[..., None] - x, x - hi[..., None]), 0.0)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            score = (gap + y) / (hi - lo)[..., None]
+        score = np.where(np.isfinite(score), score, np.inf)
+        best = np.argmin(score, axis=2) if poles.shape[1] else np.zeros(lo.shape, int)
+        use = (np.take_along_axis(score, best[..., None], 2)[..., 0] < 1.0
+               if poles.shape[1] else np.zeros(lo.shape, bool))
+        bx = np.where(use, np.take_along_axis(np.broadcast_to(px[:, None, :], score.shape),
+                                              best[..., None], 2)[..., 0]
+                      if poles.shape[1] else 0.0, 0.0)
+        by = np.where(use, np.take_along_axis(np.broadcast_to(py[:, None, :], score.shape),
+                                              best[..., None], 2)[..., 0]
+                      if poles.shape[1] else 0.0, 0.0)
+        keep = hi > lo
+        with np.errstate(invalid="ignore", divide="ignore"):
+            tlo = np.where(use, np.arcsinh((lo - bx) / np.where(use, by, 1.0)), lo)
+            thi = np.where(use, np.arcsinh((hi - bx) / np.where(use, by, 1.0)), hi)
+        rows.append(np.broadcast_to(np.arange(n)[:, None], lo.shape)[keep])
+        los.append(tlo[keep])
+        his.append(thi[keep])
+        maps.append(np.stack([bx[keep], by[keep]], axis=1))
+    row, lo, hi = np.concatenate(rows), np.concatenate(los), np.concatenate(his)
+    aux = np.concatenate(maps)
+    order = np.argsort(row, kind="stable")  # each row's panels in ascending order
+
+    def node_map(a, tau):
+        x, y = a[..., 0], a[..., 1]
+        mapped = y > 0
+        t = np.where(mapped, x + y * np.sinh(tau), tau)
+        return t, np.where(mapped, y * np.cosh(tau), 1.0)
+
+    def integrand(rows, t):
+        u, q, dudt = cmap(t)
+        return fn(rows, u, q) * dudt
+
+    gk = _flat_gk(integrand, node_map)
+    return adaptive_panels(gk, row[order], lo[order], hi[order], n, rtol, max_passes,
+                           per_pass, aux=aux[order]) / cmap.umax
 
 
 def azimuth_average(fn, nf: int, rtol: float = 3e-3, panels: int = 2,

@@ -45,8 +45,8 @@ from dataclasses import KW_ONLY, dataclass, field, replace
 
 import numpy as np
 
-from . import checks, multilayer
-from .bands import Bands, band_average
+from . import batch, checks, multilayer
+from .bands import Bands
 from .errors import ModelRangeWarning
 from .finite_size import Panel
 from .incidence import (
@@ -494,8 +494,10 @@ class Stack:
 
         ``normal`` evaluates theta = 0; ``field`` (default limit 78 deg) and ``diffuse``
         (90 deg) apply Paris' formula with the adaptive quadrature of
-        :func:`noisebudget.incidence.paris_average` to relative accuracy ``rtol``, over
-        the azimuth too when the stack is not :attr:`isotropic`. With a :attr:`panel`,
+        :func:`noisebudget.incidence.paris_average_critical` (through
+        :mod:`noisebudget.batch`, this stack as a batch of one) to relative accuracy
+        ``rtol``, over the azimuth too when the stack is not :attr:`isotropic` (in closed
+        form for one direction-dependent sheet, else nested). With a :attr:`panel`,
         the radiated side is windowed to the bay (normal incidence too); a bay's
         radiation efficiency can exceed 1 (a baffled piston's peaks near
         ``k sqrt(S) = 4``), so a nearly transparent stack in a bay is held at ``tau = 1``.
@@ -505,7 +507,18 @@ class Stack:
         return self._average(f, incidence, theta_max_deg, rtol)
 
     def _average(self, f, incidence, theta_max_deg, rtol):
-        """:meth:`average_transmission` for checked frequencies, without warnings."""
+        """:meth:`average_transmission` for checked frequencies, without warnings: the
+        batched kernel of :mod:`noisebudget.batch` (this stack as a batch of one), or
+        :meth:`_average_nested` for stacks it does not take."""
+        if batch.batchable(self):
+            return batch.average_transmissions([self], f, incidence, theta_max_deg, rtol,
+                                               warn=False)[0]
+        return self._average_nested(f, incidence, theta_max_deg, rtol)
+
+    def _average_nested(self, f, incidence, theta_max_deg, rtol):
+        """Incidence average by the stack's own route, frequency block by block: the
+        cascade or the general solve, and the nested azimuth average where a closed form
+        is missing."""
         if incidence not in INCIDENCE:
             raise ValueError(f"incidence must be one of {INCIDENCE}, got {incidence!r}")
         if incidence == "normal":
@@ -571,9 +584,28 @@ class Stack:
         """
         edges = checks.frequencies(np.concatenate([bands.lower, bands.upper]), "band edges")
         self._warn_ranges(edges)
-        tau = band_average(lambda f: self._average(f, incidence, theta_max_deg, 3 * rtol),
-                           bands, rtol)
+        tau = batch.band_transmissions([self], bands, incidence, theta_max_deg, rtol,
+                                       warn=False)[0]
         return -10 * np.log10(np.maximum(tau, 10 ** (-TL_CAP_DB / 10)))
+
+    @classmethod
+    def band_transmission_losses(cls, stacks, bands: Bands, incidence: str = "field",
+                                 theta_max_deg: float | None = None,
+                                 rtol: float = 3e-3) -> np.ndarray:
+        """Band TL of many stacks at once, shape (nv, nb), each row bit for bit that
+        stack's :meth:`band_transmission_loss`: stacks of one structure (variants of a
+        trade study) are computed as one batch (:mod:`noisebudget.batch`)."""
+        tau = batch.band_transmissions(stacks, bands, incidence, theta_max_deg, rtol)
+        return -10 * np.log10(np.maximum(tau, 10 ** (-TL_CAP_DB / 10)))
+
+    @classmethod
+    def average_transmissions(cls, stacks, f_hz, incidence: str = "field",
+                              theta_max_deg: float | None = None,
+                              rtol: float = 3e-3) -> np.ndarray:
+        """Incidence-averaged tau of many stacks at once, shape (nv, nf), each row bit for
+        bit that stack's :meth:`average_transmission` (batched as
+        :meth:`band_transmission_losses`)."""
+        return batch.average_transmissions(stacks, f_hz, incidence, theta_max_deg, rtol)
 
     def _surface(self, omega, theta, backing, azimuth=None):
         """Normal surface impedance for omega (nf, 1) and angles theta (nf or 1, nth)."""

@@ -3,8 +3,13 @@
 This is the physics kernel of the budget: band averages (energy, never dB) over the
 study's one-third-octave bands and narrowband values at the tones' frequencies, for
 each distinct package stack (packages built with ``based_on`` share stack objects) and
-each group of leaks. The tasks are independent and run on a small thread pool (numpy
-releases the GIL inside its large array operations).
+each group of leaks. Stacks of one structure (the variants of a trade study, each a
+package of one budget) are computed as one batch along a leading variants axis
+(:meth:`~noisebudget.stack.Stack.band_transmission_losses`, :mod:`noisebudget.batch`);
+a variant's numbers do not depend on which variants share its batch. The batches, each
+stack the batch cannot take (the general solve of elastic layers, nested azimuth
+averages), the leaks and the package absorption are independent tasks on a small thread
+pool (numpy releases the GIL inside its large array operations), the dearest first.
 
 A zone with a bay (``Zone.panel``) puts every package's stack on it into that bay
 (:meth:`~noisebudget.stack.Stack.with_panel`): its band and tone transmission include
@@ -14,7 +19,9 @@ layers in front of a leak radiate into the cavity and keep the infinite stack.
 A leak behind the first k layers of a stack transmits ``tau_front(f) * tau_leak(f)``,
 with ``tau_front`` the transmission of those layers into the cavity air (the leak then
 joins the cavity air to the cabin); the band value is the band average of that product,
-to a relative accuracy of 1 % (0.04 dB; a leak is one path of several).
+to a relative accuracy of 1 % (0.04 dB; a leak is one path of several). The fronts of all
+leak groups are batched like the stacks, and each leak's own transmission (which depends
+on the frequency and the airs only) is computed once per distinct frequency.
 """
 
 from __future__ import annotations
@@ -25,32 +32,81 @@ from dataclasses import replace
 
 import numpy as np
 
+from . import batch
 from .bands import Bands, band_average
 from .multilayer import needs_general_solve
 
 __all__ = ["distinct_items", "zone_transmissions"]
 
 _LEAK_RTOL = 1e-2
+_WALL_RTOL = 3e-3
 
 
-def _leak_function(stack, behind: int, leaks, incidence, theta_max_deg):
-    """``f -> sum S_l tau_l(f)`` (m^2) of the leaks behind the first ``behind`` layers."""
-    if behind:
-        front = replace(stack, layers=stack.layers[:behind], labels=stack.labels[:behind],
-                        receiver_air=stack.cavity_air)
-        airs = (stack.cavity_air, stack.receiver_air, stack.cavity_air)
-    else:
-        front, airs = None, (stack.source_air, stack.receiver_air, stack.cavity_air)
+def _by_class(stacks, method: str, *args) -> np.ndarray:
+    """``cls.method(stacks_of_cls, *args)`` for each stack class present (a subclass may
+    remember results, e.g. a trade study's known stacks), rows in the stacks' order."""
+    out = None
+    for cls in dict.fromkeys(type(s) for s in stacks):  # a loop over a class or two
+        idx = [i for i, s in enumerate(stacks) if type(s) is cls]
+        part = getattr(cls, method)([stacks[i] for i in idx], *args)
+        if out is None:
+            out = np.empty((len(stacks), part.shape[1]))
+        out[idx] = part
+    return out
 
-    def area(f):
-        total = sum(lk.area * lk.aperture.average_transmission(f, incidence, theta_max_deg,
-                                                                *airs) for lk in leaks)
-        if front is not None:
-            total = total * front.average_transmission(f, incidence, theta_max_deg,
-                                                       3 * _LEAK_RTOL)
-        return total
 
-    return area
+def _leak_terms(leak_sets):
+    """One term per group of leaks behind the same layer: ``(set, front, leaks, airs)``,
+    with ``front`` the layers in front of the leaks (into the cavity air) or None."""
+    terms = []
+    for i, (stack, leaks) in enumerate(leak_sets):
+        for behind, group in _groups(leaks).items():
+            if behind:
+                front = replace(stack, layers=stack.layers[:behind],
+                                labels=stack.labels[:behind], receiver_air=stack.cavity_air)
+                airs = (stack.cavity_air, stack.receiver_air, stack.cavity_air)
+            else:
+                front, airs = None, (stack.source_air, stack.receiver_air, stack.cavity_air)
+            terms.append((i, front, group, airs))
+    return terms
+
+
+def _leak_area(terms, n_sets, sets, f, incidence, theta_max_deg):
+    """``sum S_l tau_l(f) tau_front(f)`` (m^2) of the leak set ``sets[p]`` at ``f[p]``, per
+    point: the terms of a set in order (a loop over term positions, a set has few), each
+    leak's transmission once per distinct frequency, the fronts batched."""
+    out = np.zeros(f.size)
+    if not terms:
+        return out
+    owner = np.array([t[0] for t in terms])  # ascending: a set's terms are consecutive
+    first = np.searchsorted(owner, np.arange(n_sets + 1))
+    count = np.diff(first)
+    for j in range(int(count.max())):  # term positions within a set
+        sel = np.flatnonzero(count[sets] > j)
+        if not sel.size:
+            continue
+        term = first[sets[sel]] + j
+        area = np.zeros(sel.size)
+        apertures = {}  # the leaks' own transmission: once per group of leaks and airs
+        for k in np.unique(term):  # a loop over distinct leak groups
+            key = (terms[k][2], terms[k][3])
+            apertures.setdefault(key, []).append(k)
+        for (leaks, airs), ks in apertures.items():
+            mine = np.isin(term, ks)
+            freqs, back = np.unique(f[sel[mine]], return_inverse=True)
+            total = sum(lk.area * lk.aperture.average_transmission(
+                freqs, incidence, theta_max_deg, *airs) for lk in leaks)
+            area[mine] = total[back]
+        fronts = [terms[k][1] for k in range(len(terms))]
+        has = np.array([fr is not None for fr in fronts])[term]
+        if has.any():
+            used = sorted(set(term[has].tolist()))
+            where = {k: n for n, k in enumerate(used)}
+            area[has] = area[has] * batch.average_rows(
+                [fronts[k] for k in used], np.array([where[k] for k in term[has]]),
+                f[sel[has]], incidence, theta_max_deg, batch._INNER * _LEAK_RTOL)
+        out[sel] += area
+    return out
 
 
 def zone_transmissions(inp, bands: Bands, tone_hz) -> dict:
@@ -76,54 +132,77 @@ def zone_transmissions(inp, bands: Bands, tone_hz) -> dict:
     stacks = [s if bay is None else s.with_panel(*bay) for s, bay in stacks]
     leak_sets, l_idx = distinct_items([[(p.stacks[z.name], p.leaks.get(z.name, ())) for z in zones]
                                   for p in pkgs], lambda x: (id(x[0]), x[1]))
+    together = [i for i, s in enumerate(stacks) if batch.batchable(s)]
+    alone = [i for i, s in enumerate(stacks) if not batch.batchable(s)]
+
+    def walls(idx):
+        chosen = [stacks[i] for i in idx]
+        band = 10 ** (-_by_class(chosen, "band_transmission_losses", bands, inc, tmax,
+                                 _WALL_RTOL) / 10)
+        tone = (_by_class(chosen, "average_transmissions", tone_hz, inc, tmax, _WALL_RTOL)
+                if tone_hz.size else np.empty((len(idx), 0)))
+        return band, tone
+
+    terms = _leak_terms(leak_sets)
+    n_sets = len(leak_sets)
+
+    def leak_paths():
+        if terms:
+            band = band_average(lambda g, f: _leak_area(terms, n_sets, g, f, inc, tmax),
+                                bands, _LEAK_RTOL, groups=n_sets)
+        else:
+            band = np.zeros((n_sets, len(bands)))
+        tone = _leak_area(terms, n_sets, np.repeat(np.arange(n_sets), tone_hz.size),
+                          np.tile(tone_hz, n_sets), inc, tmax).reshape(n_sets, tone_hz.size)
+        return band, tone
+
     tasks = {}
-    for i, s in enumerate(stacks):
-        tasks["band", i] = lambda s=s: 10 ** (-s.band_transmission_loss(bands, inc, tmax) / 10)
-        tasks["tone", i] = lambda s=s: s.average_transmission(tone_hz, inc, tmax) \
-            if tone_hz.size else np.empty(0)
-        if inp.include_package_absorption:
+    for i in alone:  # stacks the batch cannot take: one task each, on the pool
+        tasks["wall", i] = lambda i=i: walls([i])
+    if together:
+        tasks["batch", 0] = lambda: walls(together)
+    tasks["leak", 0] = leak_paths
+    if inp.include_package_absorption:
+        for i, s in enumerate(stacks):
             tasks["absorb", i] = lambda s=s: s.reversed().random_incidence_absorption(
                 bands.centre, "receiver")
-    for i, (s, leaks) in enumerate(leak_sets):
-        fns = [_leak_function(s, k, group, inc, tmax) for k, group in _groups(leaks).items()]
-        tasks["leak", i] = lambda fns=fns: band_average(
-            lambda f: sum(fn(f) for fn in fns), bands, _LEAK_RTOL) if fns else \
-            np.zeros(len(bands))
-        tasks["leak-tone", i] = lambda fns=fns: sum((fn(tone_hz) for fn in fns),
-                                                    np.zeros(tone_hz.size)) \
-            if tone_hz.size else np.zeros(0)
-    done = _run(_longest_first(tasks, stacks, leak_sets))
-
-    def gather(kind, n, index):
-        return np.stack([done[kind, i] for i in range(n)])[index]
+    done = _run(_longest_first(tasks, stacks))
+    wall = np.empty((len(stacks), len(bands)))
+    wall_tone = np.empty((len(stacks), tone_hz.size))
+    for i in alone:
+        wall[i], wall_tone[i] = done["wall", i][0][0], done["wall", i][1][0]
+    if together:
+        wall[together], wall_tone[together] = done["batch", 0]
+    leak, leak_tone = done["leak", 0]
 
     absorption = inp.cabin_area_m2[inp.cabin_bands.index(bands.nominal)][None, :]
     if inp.include_package_absorption:
         areas = np.array([z.area for z in zones])
-        absorption = absorption + np.sum(areas[None, :, None] * gather(
-            "absorb", len(stacks), s_idx), axis=1)
-    return {"wall": gather("band", len(stacks), s_idx),
-            "wall_tone": gather("tone", len(stacks), s_idx),
-            "leak_area": gather("leak", len(leak_sets), l_idx),
-            "leak_tone_area": gather("leak-tone", len(leak_sets), l_idx),
+        absorbed = np.stack([done["absorb", i] for i in range(len(stacks))])[s_idx]
+        absorption = absorption + np.sum(areas[None, :, None] * absorbed, axis=1)
+    return {"wall": wall[s_idx],
+            "wall_tone": wall_tone[s_idx],
+            "leak_area": leak[l_idx],
+            "leak_tone_area": leak_tone[l_idx],
             "open_area": np.array([sum(lk.area for lk in leaks) for _, leaks in leak_sets]
                                   )[l_idx],
             "absorption": np.broadcast_to(absorption, (len(pkgs), len(bands))).copy(),
             "tone_hz": tone_hz}
 
 
-def _longest_first(tasks: dict, stacks, leak_sets) -> dict:
+def _longest_first(tasks: dict, stacks) -> dict:
     """The tasks reordered by a rough cost, dearest first, so that the thread pool does not
-    start the longest one last: band averages before leaks before narrowband values;
-    stacks of the general solve (elastic layers) before direction-dependent ones before the
-    rest (a longest-first schedule)."""
-    kind = {"band": 0, "leak": 1, "absorb": 2, "tone": 3, "leak-tone": 4}
+    start the longest one last: stacks of the general solve (elastic layers) before
+    direction-dependent ones before the batch of the rest, then the leaks, then the
+    absorption (a longest-first schedule)."""
+    kind = {"wall": 0, "batch": 1, "leak": 2, "absorb": 3}
 
     def rank(key):
         what, i = key
-        s = leak_sets[i][0] if what.startswith("leak") else stacks[i]
-        solve = 0 if needs_general_solve(s.layers) else 1 if not s.isotropic else 2
-        return (kind[what] > 1, solve, kind[what])
+        if what == "wall":
+            s = stacks[i]
+            return (0, 0 if needs_general_solve(s.layers) else 1 if not s.isotropic else 2)
+        return (kind[what], 0)
 
     return {k: tasks[k] for k in sorted(tasks, key=rank)}
 

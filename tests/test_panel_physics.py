@@ -376,6 +376,28 @@ def test_radiation_table_matches_direct_evaluation():
                                rtol=2e-5)
 
 
+def test_radiation_table_rows_do_not_depend_on_each_other():
+    # a row's coefficients come from its own (k, kt_max) only: built among other
+    # frequencies, alone, or remembered, the same numbers bit for bit (the contract that
+    # lets trade-study variants share the table)
+    from noisebudget import finite_size
+
+    bay = Panel(1.0, 1.4)
+    k = np.geomspace(0.5, 200.0, 40)
+    kt_max = 1.3 * k
+    kt = np.linspace(0, 1, 9)[None, :] * kt_max[:, None]
+    finite_size._ROWS.clear()
+    together = bay.radiation_table(k, kt_max)(np.arange(k.size), kt)
+    again = bay.radiation_table(k[::-1], kt_max[::-1])(np.arange(k.size), kt[::-1])
+    for i in (0, 17, 39):
+        finite_size._ROWS.clear()
+        alone = bay.radiation_table(k[i:i + 1], kt_max[i:i + 1])(np.array([0]), kt[i:i + 1])
+        np.testing.assert_array_equal(alone[0], together[i])
+    np.testing.assert_array_equal(again[::-1], together)
+    np.testing.assert_allclose(together, bay.radiation_efficiency(k[:, None], kt), rtol=2e-5,
+                               atol=1e-12)
+
+
 def _sewell_tl(f, m, side):
     # Sewell, J. Sound Vib. 12 (1970) 21-32, limp panel of area S in a rigid baffle,
     # diffuse incidence, fluid loading neglected, square panel (U(1) = 0, from memory):

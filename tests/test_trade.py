@@ -632,8 +632,10 @@ def test_interrupted_sweep_keeps_its_checkpoint_beside_the_outputs(mc_study, tmp
     lines = err.strip().splitlines()
     assert len(lines) == 1 and "Traceback" not in err, err
     ck = out / "s-sweep.checkpoint.npz"
-    assert lines[0] == (f"noisebudget: sweep interrupted ({sig.name}); 4 finished variants "
-                        f"kept in {ck}: continue with --resume")
+    from noisebudget.trade.execute import chunk_size
+    kept = 2 * chunk_size(70)  # two finished chunks of the 70 variants
+    assert lines[0] == (f"noisebudget: sweep interrupted ({sig.name}); {kept} finished "
+                        f"variants kept in {ck}: continue with --resume")
     assert sorted(p.name for p in out.iterdir()) == [ck.name]  # no output, no staging
     # a new sweep does not silently discard it; --resume finishes it
     assert main(["sweep", str(mc_study), "-o", str(out), "-q"]) == 2

@@ -137,3 +137,27 @@ def test_bad_bays_are_refused_by_check_and_run(tmp_path, capsys, bay, key, words
         err = capsys.readouterr().err.splitlines()
         assert any(line.startswith(f"{path}: {key}: ") and words in line for line in err), err
     assert not (tmp_path / "out").exists()
+
+
+def test_the_budget_kernel_gives_each_demo_wall_its_own_stack_in_its_bay():
+    # the kernel batches the batchable stacks and runs the others (the Biot foam package:
+    # the general solve) on their own: every package's wall on every zone is, bit for
+    # bit, its stack in the zone's bay computed alone
+    from noisebudget.resources import data_path
+    from noisebudget.study import load_study
+    from noisebudget.zone_paths import zone_transmissions
+
+    inp = load_study(data_path("examples", "demo-study.toml")).inputs
+    bands = third_octave_bands(200, 800)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ModelRangeWarning)
+        got = zone_transmissions(inp, bands, np.array([105.0]))
+        for p, pkg in enumerate(inp.packages):
+            for z, zone in enumerate(inp.zones):
+                stack = pkg.stacks[zone.name]
+                if zone.panel is not None:
+                    stack = stack.with_panel(*zone.panel)
+                np.testing.assert_array_equal(-10 * np.log10(got["wall"][p, z]),
+                                              stack.band_transmission_loss(bands))
+                np.testing.assert_array_equal(got["wall_tone"][p, z],
+                                              stack.average_transmission([105.0]))

@@ -49,7 +49,7 @@ class AirGap(Layer):
 
     def element(self, omega, kt, air) -> FluidElement:
         bulk = air.bulk_modulus
-        if self.loss_factor:
+        if np.any(self.loss_factor):  # a number, or per-row numbers of a batch
             bulk = bulk * (1 + 1j * self.loss_factor)
         return FluidElement(np.asarray(air.density, dtype=complex),
                             np.asarray(bulk, dtype=complex), self.gap)

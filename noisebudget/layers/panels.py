@@ -66,13 +66,21 @@ Septum.schema = {
 
 
 def _pair(value, key):
-    """One value or ``(axial, hoop)`` as a tuple of two floats."""
+    """One value or ``(axial, hoop)`` as a tuple of two floats.
+
+    A batch of variants (:mod:`noisebudget.batch`) holds per-row arrays shaped (n, 1)
+    instead of numbers: one such array is one value, a tuple of two is a pair.
+    """
     if value is None:
         return None
     if np.ndim(value) == 0:
         return (float(value), float(value))
+    if isinstance(value, np.ndarray) and value.ndim == 2:
+        return (value, value)
     if len(value) != 2:
         raise LayerValueError(key, f"give one value or two [axial, hoop], got {len(value)}")
+    if np.ndim(value[0]) or np.ndim(value[1]):
+        return (value[0], value[1])
     return (float(value[0]), float(value[1]))
 
 
@@ -203,7 +211,8 @@ class Plate(Layer):
         curved."""
         da, dh = self.stiffnesses
         na, nh = self.tensions
-        return da == dh and na == nh and not np.isfinite(self.curvature_radius)
+        return bool(np.all(da == dh) and np.all(na == nh)
+                    and not np.any(np.isfinite(self.curvature_radius)))
 
     def parameters(self) -> dict:
         """Plain SI floats for tables: axis pairs split into ``_axial`` and ``_hoop``
@@ -273,7 +282,7 @@ class Plate(Layer):
         z0 = (loss * dh * kt4 + nh * kt2) * inv + self.surface_density / inv
         z1 = (loss * 2 * root_h * (root_a - root_h) * kt4 + (na - nh) * kt2) * inv
         stiff = loss * (root_a - root_h) ** 2 * kt4
-        if np.isfinite(self.curvature_radius):
+        if np.any(np.isfinite(self.curvature_radius)):
             donnell = loss * self.youngs_modulus * self.plate_thickness / self.curvature_radius**2
             normal = kt == 0
             if normal.any():  # normal incidence: the breathing mode, whatever the azimuth
@@ -288,7 +297,7 @@ class Plate(Layer):
             d = self.bending_stiffness * (1.0 + 1j * self.loss_factor)
             z = 1j * omega * self.surface_density + d * kt**4 / (1j * omega)
             n = self.tensions[0]
-            if n:
+            if np.any(n):
                 z = z + n * kt**2 / (1j * omega)
             return SheetElement(z)
         x = np.cos(0.0 if azimuth is None else azimuth) ** 2
@@ -307,7 +316,7 @@ class Plate(Layer):
         omega = np.asarray(omega, dtype=float)
         if self.isotropic:
             na = self.tensions[0]
-            if not na:
+            if not np.any(na):
                 return np.sqrt(omega) * (self.surface_density / self.bending_stiffness) ** 0.25
             azimuth = 0.0
         if azimuth is None:
@@ -318,7 +327,7 @@ class Plate(Layer):
         d = (np.sqrt(dh) + (np.sqrt(da) - np.sqrt(dh)) * x) ** 2
         n = nh + (na - nh) * x
         k = 0.0
-        if np.isfinite(self.curvature_radius):
+        if np.any(np.isfinite(self.curvature_radius)):
             k = self.youngs_modulus * self.plate_thickness / self.curvature_radius**2 * x * x
         rest = self.surface_density * omega**2 - k
         with np.errstate(invalid="ignore"):

@@ -134,11 +134,19 @@ def _series(k, r, a):
 
 def _hankels(z):
     """Scaled Hankel functions of orders 0 and 1: ``(h1e0, h1e1, h2e0, h2e1)`` at z,
-    using ``H2_v(z) = conj(H1_v(conj z))`` (real order): one call per order."""
+    using ``H2_v(z) = conj(H1_v(conj z))`` (real order): one call per order.
+
+    ``H1_v(w) = (2 / (pi j)) e^{-j v pi / 2} K_v(-j w)`` for ``-pi/2 < arg w <= pi``
+    (Abramowitz & Stegun 9.6.4), and the scalings agree (``hankel1e(w) = H1(w) e^{-jw}``,
+    ``kve(zeta) = K(zeta) e^{zeta}`` with ``zeta = -j w``): the modified Bessel function is
+    several times faster to evaluate than the Hankel function (both by Amos's
+    algorithms). ``z`` lies in the fourth quadrant (``Im k <= 0``), ``conj z`` in the first.
+    """
     from scipy import special
 
-    both = np.concatenate([z, np.conj(z)])
-    h0, h1 = special.hankel1e(0, both), special.hankel1e(1, both)
+    both = -1j * np.concatenate([z, np.conj(z)])
+    h0 = special.kve(0, both) * (-2j / np.pi)
+    h1 = special.kve(1, both) * (-2 / np.pi)
     n = z.size
     return h0[:n], h1[:n], np.conj(h0[n:]), np.conj(h1[n:])
 
@@ -242,18 +250,20 @@ class Cell:
         k = np.asarray(k + 0j)
         a, r0 = self.radius, self.mass_radius
         y = k * a
-        if r0 == 0.0:  # bare membrane: I_u = a^2 J2(ka) / (2 k^2 J0(ka)), any ka
+        if np.all(r0 == 0.0):  # bare membrane: I_u = a^2 J2(ka) / (2 k^2 J0(ka)), any ka
             with np.errstate(divide="ignore", invalid="ignore"):
                 ratio = special.jve(2, y) / special.jve(0, y)
                 iu = np.where(np.abs(y) > 1e-3, a**2 / 2 * ratio / k**2,
                               a**4 / 16 * (1 + y**2 / 6))  # J2/J0 = (ka)^2 (1 + (ka)^2 / 6) / 8
             return _Annulus(omega, t, k, None, None, None, iu)
         dphi, iphi, du, iu = (np.empty(k.shape, complex) for _ in range(4))
+        # radii as numbers, or per-row arrays of a batch of variants (noisebudget.batch)
+        a_k, r0_k = np.broadcast_to(a, k.shape), np.broadcast_to(r0, k.shape)
         low = np.abs(y) <= SERIES_LIMIT
         if low.any():
-            kl = k[low]
-            (v1a, v2a, vpa), _, (i1a, i2a, ipa) = _series(kl, a, a)
-            (v1r, v2r, vpr), (d1r, d2r, dpr), (i1r, i2r, ipr) = _series(kl, r0, a)
+            kl, al = k[low], a_k[low]
+            (v1a, v2a, vpa), _, (i1a, i2a, ipa) = _series(kl, al, al)
+            (v1r, v2r, vpr), (d1r, d2r, dpr), (i1r, i2r, ipr) = _series(kl, r0_k[low], al)
             det = v1r * v2a - v2r * v1a
             # phi = alpha u1 + beta u2 with phi(r0) = 1, phi(a) = 0
             alpha, beta = v2a / det, -v1a / det
@@ -267,8 +277,8 @@ class Cell:
             iu[low] = -dip + aa * di1 + bb * di2
         high = ~low
         if high.any():
-            kh = k[high]
-            x, yh = kh * r0, kh * a
+            kh, ah, r0h = k[high], a_k[high], r0_k[high]
+            x, yh = kh * r0h, kh * ah
             d = yh - x
             e = np.exp(d.imag)  # e^{Im d} <= 1
             # C_mn(x, y) e^{Im d}, as in _cross, from eight scaled Hankel values
@@ -281,12 +291,12 @@ class Cell:
             c01 = pre2j * (b0x * a1y - a0x * b1y * small)
             w = 2 * e / (np.pi * kh**2)
             dph = -kh * c10 / c00
-            iph = (w - r0 / kh * c10) / c00
-            dchi = 2 * e / (np.pi * r0 * c00)
-            ichi = (w + a / kh * c01) / c00
+            iph = (w - r0h / kh * c10) / c00
+            dchi = 2 * e / (np.pi * r0h * c00)
+            ichi = (w + ah / kh * c01) / c00
             dphi[high], iphi[high] = dph, iph
             du[high] = (dph + dchi) / kh**2
-            iu[high] = (iph + ichi - (a**2 - r0**2) / 2) / kh**2
+            iu[high] = (iph + ichi - (ah**2 - r0h**2) / 2) / kh**2
         return _Annulus(omega, t, k, dphi, iphi, du, iu)
 
     def response(self, omega, p_m, f_d, pre: _Annulus | None = None):
@@ -297,7 +307,7 @@ class Cell:
         reuses the constants of :meth:`_annulus` for several load cases.
         """
         pre = pre or self._annulus(omega)
-        if self.mass_radius == 0.0:
+        if np.all(self.mass_radius == 0.0):
             vol = 2 * np.pi * p_m / pre.tension * pre.iu
             return vol, np.zeros_like(vol)
         r0, t = self.mass_radius, pre.tension
@@ -414,6 +424,8 @@ class Tile(Layer):
         for c in self.cells:  # loop over cell kinds, not frequencies
             r0a = np.pi * c.mass_radius**2
             key = (c.surface_density, c.tension, c.loss_factor, c.radius, c.mass_radius)
+            if any(np.ndim(v) for v in key):  # a batch's per-row arrays: each cell alone
+                key = id(c)
             pre = shared.get(key) or shared.setdefault(key, c._annulus(omega))
             vp, wp = c.response(omega, pressure, pressure * r0a, pre)  # pressure load
             vu, wu = c.response(omega, omega**2 * c.surface_density, omega**2 * c.disk_mass,

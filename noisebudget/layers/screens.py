@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
+
 from .base import Field, Layer, SheetElement
 
 __all__ = ["Screen"]
@@ -43,7 +45,7 @@ class Screen(Layer):
 
     def element(self, omega, kt, air):
         r = self.flow_resistance
-        if self.surface_density == 0.0:
+        if np.all(self.surface_density == 0.0):  # a number, or a batch's per-row numbers
             return SheetElement(r + 0j * omega)
         zm = 1j * omega * self.surface_density
         return SheetElement(r * zm / (r + zm))

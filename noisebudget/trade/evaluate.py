@@ -76,6 +76,43 @@ class KnownStack(Stack):
         """As :meth:`Stack.average_transmission`, computed once per distinct stack."""
         return self._remembered("average_transmission", args, kwargs)
 
+    @classmethod
+    def _remembered_many(cls, method, many, stacks, args, kwargs):
+        """``method`` of each stack (one row each): remembered rows as they are, the rest
+        computed as one batch by the stack's batched form and remembered."""
+        key = _args_key(args, kwargs)
+        rows, todo = [None] * len(stacks), []
+        with _lock:
+            for i, s in enumerate(stacks):
+                out = _cache.get((s, method, key))
+                if out is None:
+                    todo.append(i)
+                else:
+                    _cache.move_to_end((s, method, key))
+                    rows[i] = out
+        if todo:
+            done = getattr(Stack, many)([stacks[i] for i in todo], *args, **kwargs)
+            with _lock:
+                for i, row in zip(todo, done, strict=True):
+                    rows[i] = row
+                    _cache[(stacks[i], method, key)] = row.copy()
+                while len(_cache) > _CACHE_SIZE:
+                    _cache.popitem(last=False)
+        return np.array([r.copy() for r in rows]).reshape(len(stacks), -1)
+
+    @classmethod
+    def band_transmission_losses(cls, stacks, *args, **kwargs):
+        """As :meth:`Stack.band_transmission_losses`, each distinct stack computed once
+        (the rows remembered as :meth:`band_transmission_loss` remembers them)."""
+        return cls._remembered_many("band_transmission_loss", "band_transmission_losses",
+                                    stacks, args, kwargs)
+
+    @classmethod
+    def average_transmissions(cls, stacks, *args, **kwargs):
+        """As :meth:`Stack.average_transmissions`, each distinct stack computed once."""
+        return cls._remembered_many("average_transmission", "average_transmissions", stacks,
+                                    args, kwargs)
+
 
 def known(stack: Stack) -> KnownStack:
     """The same stack as a :class:`KnownStack`."""

@@ -32,8 +32,11 @@ _CATEGORIES = {c.__name__: c for c in (ModelRangeWarning, RuntimeWarning, UserWa
 
 
 def chunk_size(n: int) -> int:
-    """Variants per chunk for ``n`` variants: about 64 chunks, 1 to 32 variants each."""
-    return max(1, min(32, math.ceil(n / 64)))
+    """Variants per chunk for ``n`` variants: about 8 chunks (work for a few processes),
+    1 to 64 variants each (a chunk is one batch of the transmission kernels,
+    :mod:`noisebudget.batch`, whose cost per variant falls with the batch up to some
+    dozens of variants)."""
+    return max(1, min(64, math.ceil(n / 8)))
 
 
 def chunks(n: int, size: int, done=None) -> list[tuple[int, int]]:
