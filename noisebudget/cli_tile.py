@@ -98,17 +98,11 @@ def _read_measured(path):
 
     from .checks import MAX_FREQUENCY_HZ, MIN_FREQUENCY_HZ
     from .errors import InputError
+    from .schema import read_bytes
 
     where = str(path)
     p = Path(path)
-    try:
-        raw = p.read_bytes()
-    except FileNotFoundError:
-        raise InputError(where, "", "file not found") from None
-    except IsADirectoryError:
-        raise InputError(where, "", "is a folder, not a data file") from None
-    except OSError as exc:
-        raise InputError(where, "", f"cannot read ({exc.strerror or exc})") from None
+    raw = read_bytes(p, "data file")
     if b"\0" in raw[:8192]:
         raise InputError(where, "", "is a binary file; expected UTF-8 text "
                                     "'frequency_hz,tl_db' rows")

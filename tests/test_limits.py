@@ -124,6 +124,7 @@ FIT_CASES = {  # name: (bytes, expected words); '*' means a folder
     "header": (b"f,tl\n100,3\n", "line 1: expected the header 'frequency_hz,tl_db'"),
     "three": (b"frequency_hz,tl_db\n100,3,4\n", "line 2: expected two numbers"),
     "negative": (b"frequency_hz,tl_db\n-100,3\n", "line 2: frequency -100 Hz: must lie in"),
+    "huge": (b"frequency_hz,tl_db\n" + b"100,3\n" * (3 * 2**20), "larger than 16 MB"),
 }
 
 
@@ -138,6 +139,36 @@ def test_fit_data_files_refused_with_one_line(tmp_path, capsys, name):
     assert main(["tile", TILE, "--fit", str(path)]) == 2
     line = one_line(capsys)
     assert line.startswith(str(path)) and words in line
+
+
+def test_a_device_is_read_no_further_than_the_file_size_limit(capsys):
+    # /dev/zero never ends: it is refused after 16 MB instead of filling the memory
+    for argv in (["tl", "/dev/zero"], ["check", "/dev/zero"], ["tile", TILE, "--fit", "/dev/zero"]):
+        assert main(argv) == 2
+        line = one_line(capsys)
+        assert line.startswith("/dev/zero: ") and "larger than 16 MB" in line
+
+
+def test_a_bay_beyond_the_largest_side_is_refused_by_the_api():
+    # the radiation table's cost grows as (k D)^2: a 100 m bay never finishes
+    from noisebudget.layers import Septum
+
+    stack = nb.Stack([Septum(2.0)])
+    for width, height in [(20.0, 1.0), (1.0, 1e5), (np.nan, 1.0), (0.0, 1.0)]:
+        with pytest.raises(ValueError, match=r"must lie in \(0, 10\] m"):
+            stack.with_panel(width, height)
+    assert stack.with_panel(10.0, 10.0).panel.area == 100.0
+
+
+def test_no_infinite_level_or_nan_reaches_a_text_table():
+    # a path whose energy underflows shows at the -300 dB floor (the TL cap's), and a value
+    # the bands do not allow (SIL4 without its octaves) is "-" in the terminal's tables
+    from noisebudget.budget_tables import level_db
+    from noisebudget.textout import fmt_number, format_table
+
+    np.testing.assert_array_equal(level_db(np.array([0.0, 1e-40, 1.0])), [-300.0, -300.0, 0.0])
+    assert fmt_number(float("nan")) == "-" and fmt_number(float("-inf")) == "-"
+    assert "nan" not in format_table(["a", "b"], [("x", float("nan"))])
 
 
 def test_fit_data_file_with_byte_order_mark_is_read(tmp_path):
