@@ -548,7 +548,17 @@ REFUSED = [
          "did you mean 'grid'?"),
         ("vary-single-table", VARY.replace("[[vary]]", "[vary]"), "vary",
          "expected an array of tables ([[vary]]), got a single table"),
+        # the value as written is the sweep's reference: one number the layer gives
+        ("key-unwritten", WINDOW.replace('"poisson_ratio"', '"in_plane_tension"').replace(
+            "[0.3, 0.6]", '["1 kN/m", "3 kN/m"]'), "vary[1].key",
+         "layer 1 (a plate layer) does not give 'in_plane_tension' (the model supplies it)"),
     ]],
+    Case("vary-key-pair", T, None, STUDY.replace(
+        'youngs_modulus = "3 GPa"}', 'youngs_modulus = "3 GPa", in_plane_tension = ["1 kN/m", '
+                                     '"2 kN/m"]}')
+         + WINDOW.replace('"poisson_ratio"', '"in_plane_tension"').replace(
+             "[0.3, 0.6]", '["1 kN/m", "3 kN/m"]'), "vary[1].key",
+         "gives 'in_plane_tension' as a pair of values: a trade study varies one number"),
     # zone bays: both sides or neither, a length, no larger than the zone
     Case("bay-width-alone", T, "flanking_tl_db = 45", 'flanking_tl_db = 45\npanel_width = "1 m"',
          "zone[1].panel_width", "needs panel_height as well"),
