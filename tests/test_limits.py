@@ -61,6 +61,18 @@ def test_tl_grid_options_refused_with_one_line(capsys, options, words):
     (["--profile", "inf"], "--profile: 'inf' is not a frequency"),
     (["--profile", "1e7"], "--profile: 1e+07 Hz: must lie in"),
     (["--tune-peak", "1e12Hz"], "--tune-peak: 1e+12 Hz: must lie in"),
+    # above 5 kHz the search grid once left the library's frequency range
+    (["--tune-peak", "30 kHz"], "--tune-peak: 30000 Hz: must lie in 0.001 .. 20000 Hz"),
+    (["--tune-peak", "20 kHz"], "no mass within 1e-06 .. 0.1 (SI) puts the first TL peak at "
+                                "20000 Hz"),
+    # options that apply to another one, or two that would each write a tile
+    (["--fit-mass"], "--fit-mass applies to --fit only"),
+    (["--vary", "radius"], "--vary applies to --tune-peak only"),
+    (["--tune-peak", "150", "--fit", "m.csv"], "--tune-peak and --fit: give one of them"),
+    # an output that cannot be written is refused before any computation
+    (["--tune-peak", "150", "-o", "/nonexistent-folder/t.toml"],
+     "--output: no folder '/nonexistent-folder' to write it in"),
+    (["--tune-peak", "150", "-o", "/tmp"], "/tmp: --output: is a folder; give a file name"),
 ])
 def test_tile_options_refused_with_one_line(capsys, options, words):
     assert main(["tile", TILE, *options]) == 2
@@ -125,6 +137,8 @@ FIT_CASES = {  # name: (bytes, expected words); '*' means a folder
     "three": (b"frequency_hz,tl_db\n100,3,4\n", "line 2: expected two numbers"),
     "negative": (b"frequency_hz,tl_db\n-100,3\n", "line 2: frequency -100 Hz: must lie in"),
     "huge": (b"frequency_hz,tl_db\n" + b"100,3\n" * (3 * 2**20), "larger than 16 MB"),
+    "tl-absurd": (b"frequency_hz,tl_db\n100,3\n200,1e6\n", "line 3: TL 1e+06 dB: must lie in "
+                                                        "-50 .. 200 dB"),
 }
 
 
@@ -211,3 +225,21 @@ def test_tl_bands_third_above_80_hz_prints_partial_ratings(capsys):
     captured = capsys.readouterr()
     assert "OITC -" in captured.out and "STC " in captured.out
     assert "note: OITC unavailable: OITC needs one-third-octave bands 80-4000 Hz" in captured.err
+
+
+def test_a_fit_that_cannot_determine_a_parameter_says_so(tmp_path, capsys):
+    # measured points far above the tile's resonances leave the central mass undetermined:
+    # its interval is "not determined", with no overflow warning on the way
+    stack = tmp_path / "tile.toml"
+    stack.write_text('[[layer]]\ntype = "tile"\npitch = "22 mm"\nframe = "clamped"\n'
+                     '[[layer.cell]]\nradius = "10 mm"\nmembrane_thickness = "0.25 mm"\n'
+                     'membrane_density = "1000 kg/m^3"\ntension = "80 N/m"\nmass = "0.4 g"\n'
+                     'mass_radius = "2 mm"\n')
+    data = tmp_path / "m.csv"
+    data.write_text("frequency_hz,tl_db\n" + "".join(f"{f},20\n" for f in range(16000, 20001,
+                                                                              1000)))
+    assert main(["tile", str(stack), "--fit", str(data), "--fit-mass"]) == 0
+    out, err = capsys.readouterr()
+    mass_row = next(line for line in out.splitlines() if line.startswith("mass "))
+    assert "not determined" in mass_row and "inf" not in out
+    assert "warning" not in err
