@@ -243,3 +243,30 @@ def test_a_fit_that_cannot_determine_a_parameter_says_so(tmp_path, capsys):
     mass_row = next(line for line in out.splitlines() if line.startswith("mass "))
     assert "not determined" in mass_row and "inf" not in out
     assert "warning" not in err
+
+
+_LAYERS = {  # a valid layer of each directly built class, keyword arguments
+    "Septum": dict(surface_density=1.0),
+    "AirGap": dict(gap=0.05),
+    "Solid": dict(layer_thickness=3e-3, density=1200.0, youngs_modulus=3e9, poisson_ratio=0.3),
+    "Sandwich": dict(face_thickness=2.5e-4, face_density=1900.0, face_youngs_modulus=2e10,
+                     core_thickness=0.01, core_density=48.0, core_shear_modulus=3e7),
+    "Plate": dict(surface_density=4.0, bending_stiffness=100.0, youngs_modulus=73e9),
+}
+
+
+@pytest.mark.parametrize("cls, field, bad", [
+    (cls, field, bad) for cls, kw in _LAYERS.items() for field in kw
+    for bad in (-1.0, float("nan"), float("inf"))
+    if not (cls == "Solid" and field == "poisson_ratio" and bad == -1.0)] + [
+    ("Plate", "loss_factor", float("nan")), ("Plate", "in_plane_tension", float("nan")),
+    ("Plate", "poisson_ratio", 0.5), ("Sandwich", "loss_factor", -0.1),
+    ("AirGap", "loss_factor", float("inf")), ("Solid", "loss_factor", float("nan"))])
+def test_layers_built_in_a_script_refuse_what_a_file_would(cls, field, bad):
+    # a negative, NaN or infinite parameter is refused by the layer itself, naming the key,
+    # so no NaN or silent wrong number comes out of a stack built without a file
+    from noisebudget import layers
+
+    with pytest.raises(layers.LayerValueError):
+        getattr(layers, cls)(**{**_LAYERS[cls], field: bad})
+    getattr(layers, cls)(**_LAYERS[cls])  # the valid layer builds
