@@ -86,6 +86,11 @@ class Panel:
     height: float
 
     def __post_init__(self):
+        for side in ("width", "height"):
+            value = getattr(self, side)
+            if isinstance(value, (bool, np.bool_)) or not isinstance(value, (int, float,
+                                                                               np.number)):
+                raise TypeError(f"panel {side} must be a number in m, got {value!r}")
         if not (0 < self.width <= MAX_BAY_SIDE_M and 0 < self.height <= MAX_BAY_SIDE_M):
             raise ValueError(f"panel sides must lie in (0, {MAX_BAY_SIDE_M:g}] m, got "
                              f"{self.width} x {self.height} m (a larger wall: leave the "

@@ -172,6 +172,14 @@ def test_a_bay_beyond_the_largest_side_is_refused_by_the_api():
         with pytest.raises(ValueError, match=r"must lie in \(0, 10\] m"):
             stack.with_panel(width, height)
     assert stack.with_panel(10.0, 10.0).panel.area == 100.0
+    for width in ("1 m", None, True):
+        with pytest.raises(TypeError, match="panel width must be a number in m"):
+            stack.with_panel(width, 1.0)
+
+
+def test_ratings_name_a_length_mismatch():
+    with pytest.raises(ArgumentError, match="nominal_hz has 3 bands and tl_db 2 values"):
+        nb.ratings(np.array([100.0, 125.0, 160.0]), np.array([20.0, 22.0]))
 
 
 def test_no_infinite_level_or_nan_reaches_a_text_table():
