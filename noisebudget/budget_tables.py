@@ -21,10 +21,13 @@ __all__ = ["build_tables", "level_db", "tl_from_tau"]
 _SIL4_OCTAVES = ((400, 500, 630), (800, 1000, 1250), (1600, 2000, 2500), (3150, 4000, 5000))
 
 
+LEVEL_FLOOR_DB = -TL_CAP_DB  # a path that transmits nothing (tau below the TL cap)
+
+
 def level_db(energy) -> np.ndarray:
-    """``10 lg E`` of mean-square pressures re p0^2; -inf where E is 0."""
-    with np.errstate(divide="ignore"):
-        return 10 * np.log10(energy)
+    """``10 lg E`` of mean-square pressures re p0^2, floored at -300 dB (a path whose
+    energy underflows to 0 is shown at the floor, never as -inf)."""
+    return 10 * np.log10(np.maximum(energy, 10 ** (LEVEL_FLOOR_DB / 10)))
 
 
 def tl_from_tau(tau) -> np.ndarray:

@@ -30,7 +30,7 @@ def register(sub):
     t.add_argument("--tune-peak", type=freq, default=None, metavar="FREQ",
                    help='target frequency of the first TL peak, Hz (e.g. 112 or "112 Hz"); '
                         "writes a tuned stack file (default: no tuning)")
-    t.add_argument("--vary", choices=("mass", "tension", "radius"), default="mass",
+    t.add_argument("--vary", choices=("mass", "tension", "radius"), default=None,
                    help="cell parameter that --tune-peak changes (default mass)")
     t.add_argument("--fit", default=None, metavar="MEASURED.csv",
                    help="fit tension and loss factor to a tube TL file with the header "
@@ -75,19 +75,31 @@ def tile_toml(tile, title: str) -> str:
     return "\n".join(lines) + "\n"
 
 
-def _write_new(path: Path, text: str, source: Path, force: bool):
+def _check_output(path: Path, source: Path, force: bool):
+    """Refuse an output file that cannot be written, before any computation."""
     from .errors import InputError
-    from .writing import atomic_write_text
 
     if path.resolve() == source.resolve():
         raise InputError(str(path), "--output", "would overwrite the input file; choose "
                                                 "another name")
+    if path.is_dir():
+        raise InputError(str(path), "--output", "is a folder; give a file name")
+    if not path.parent.is_dir():
+        raise InputError(str(path), "--output", f"no folder {str(path.parent)!r} to write "
+                                                f"it in")
     if path.exists() and not force:
         raise InputError(str(path), "--output", "exists; use --force to replace it")
+
+
+def _write_new(path: Path, text: str, source: Path, force: bool):
+    from .writing import atomic_write_text
+
+    _check_output(path, source, force)
     atomic_write_text(path, text)
 
 
 MAX_MEASURED_POINTS = 100_000
+MAX_TUNED_PEAK_HZ = 20_000.0  # the bands' upper end
 
 
 def _read_measured(path):
@@ -98,17 +110,11 @@ def _read_measured(path):
 
     from .checks import MAX_FREQUENCY_HZ, MIN_FREQUENCY_HZ
     from .errors import InputError
+    from .schema import read_bytes
 
     where = str(path)
     p = Path(path)
-    try:
-        raw = p.read_bytes()
-    except FileNotFoundError:
-        raise InputError(where, "", "file not found") from None
-    except IsADirectoryError:
-        raise InputError(where, "", "is a folder, not a data file") from None
-    except OSError as exc:
-        raise InputError(where, "", f"cannot read ({exc.strerror or exc})") from None
+    raw = read_bytes(p, "data file")
     if b"\0" in raw[:8192]:
         raise InputError(where, "", "is a binary file; expected UTF-8 text "
                                     "'frequency_hz,tl_db' rows")
@@ -142,6 +148,8 @@ def _read_measured(path):
             raise InputError(where, f"line {n}", f"frequency {f:g} Hz: must lie in "
                                                  f"{MIN_FREQUENCY_HZ:g} .. "
                                                  f"{MAX_FREQUENCY_HZ:g} Hz")
+        if not -50.0 <= tl <= 200.0:
+            raise InputError(where, f"line {n}", f"TL {tl:g} dB: must lie in -50 .. 200 dB")
         if previous is not None and f <= previous:
             word = "repeats" if f == previous else "is below"
             raise InputError(where, f"line {n}", f"frequency {f:g} Hz {word} the previous "
@@ -159,7 +167,7 @@ def cmd_tile(args) -> int:
     import numpy as np
 
     from .checks import MAX_FREQUENCY_HZ, MIN_FREQUENCY_HZ
-    from .cli import check_band, check_number
+    from .cli import UsageError, check_band, check_number
     from .errors import InputError
     from .stackfile import load_stack
     from .textout import format_table, plural
@@ -169,6 +177,21 @@ def cmd_tile(args) -> int:
     fmin, fmax = check_band(args)
     if args.profile is not None:
         check_number(args.profile, "--profile", MIN_FREQUENCY_HZ, MAX_FREQUENCY_HZ)
+    if args.tune_peak is not None and args.fit:
+        raise UsageError("--tune-peak and --fit: give one of them (each writes its own tile)")
+    if args.fit_mass and not args.fit:
+        raise UsageError("--fit-mass applies to --fit only")
+    if args.vary is not None and args.tune_peak is None:
+        raise UsageError("--vary applies to --tune-peak only")
+    vary = args.vary or "mass"
+    if args.tune_peak is not None:
+        check_number(args.tune_peak, "--tune-peak", MIN_FREQUENCY_HZ, MAX_TUNED_PEAK_HZ)
+    out = None
+    if args.tune_peak is not None or args.fit:
+        out = Path(args.output) if args.output else path.with_name(
+            f"{path.stem}-tuned.toml" if args.tune_peak is not None else
+            f"{path.stem}-fitted.toml")
+        _check_output(out, path, args.force)  # before computing anything
     stack = load_stack(path)
     _, tile = _the_tile(stack, path)
     air = stack.source_air
@@ -177,17 +200,16 @@ def cmd_tile(args) -> int:
         raise InputError(str(path), "--cell", f"no cell kind {args.cell}; the tile has "
                                               f"{len(tile.cells)}")
     out_note = None
-    if args.tune_peak:
+    if args.tune_peak is not None:
         target = args.tune_peak
-        check_number(target, "--tune-peak", MIN_FREQUENCY_HZ, MAX_FREQUENCY_HZ)
         try:
-            tile, value = tune_peak(tile, target, args.vary, cell, air)
+            tile, value = tune_peak(tile, target, vary, cell, air)
         except TuningError as exc:
             raise InputError(str(path), "--tune-peak", str(exc)) from None
-        unit = {"mass": (1e3, "g"), "tension": (1.0, "N/m"), "radius": (1e3, "mm")}[args.vary]
-        print(f"tuned {args.vary} of cell {args.cell}: {value * unit[0]:.5g} {unit[1]} puts "
+        unit = {"mass": (1e3, "g"), "tension": (1.0, "N/m"), "radius": (1e3, "mm")}[vary]
+        print(f"tuned {vary} of cell {args.cell}: {value * unit[0]:.5g} {unit[1]} puts "
               f"the first TL peak at {target:g} Hz")
-        out_note = f"tile tuned: first TL peak at {target:g} Hz by {args.vary}"
+        out_note = f"tile tuned: first TL peak at {target:g} Hz by {vary}"
     if args.fit:
         f, tl = _read_measured(args.fit)
         res = fit_tile(tile, f, tl, args.fit_mass, cell, air)
@@ -196,8 +218,9 @@ def cmd_tile(args) -> int:
         for name, v, lo, hi in zip(res.names, res.values, res.lower, res.upper, strict=True):
             scale, unit = {"tension": (1.0, "N/m"), "loss_factor": (1.0, "-"),
                            "mass": (1e3, "g")}[name]
-            rows.append((name, f"{v * scale:.4g}", f"{lo * scale:.4g} .. {hi * scale:.4g}",
-                         unit))
+            interval = (f"{lo * scale:.4g} .. {hi * scale:.4g}" if 0 < lo and np.isfinite(hi)
+                        else "not determined")
+            rows.append((name, f"{v * scale:.4g}", interval, unit))
         print(f"fit to {args.fit} ({len(f)} points)")
         print(format_table(["parameter", "fitted", "95 % interval", "unit"], rows))
         print(f"RMS residual {res.rms_db:.2f} dB; first dip off by {res.dip_error_pct:+.2f} %, "
@@ -230,9 +253,6 @@ def cmd_tile(args) -> int:
         print("(where the disk and the rim annulus move in opposite senses the area-averaged "
               "displacement can vanish: that is the TL peak)")
     if out_note:
-        out = Path(args.output) if args.output else path.with_name(f"{path.stem}-tuned.toml"
-                                                                    if args.tune_peak else
-                                                                    f"{path.stem}-fitted.toml")
         _write_new(out, tile_toml(tile, out_note), path, args.force)
         if not args.quiet:
             print(f"\nwrote {out}", file=sys.stderr)

@@ -38,7 +38,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["Panel", "RadiationTable", "window_angular_integral"]
+__all__ = ["MAX_BAY_SIDE_M", "Panel", "RadiationTable", "window_angular_integral"]
+
+# The radiation table costs about (k D)^2 per frequency (D the bay's diagonal): a 3 m bay
+# takes minutes for third octaves to 20 kHz, a 100 m one never finishes. Bays are panels
+# between frames and stringers or test openings; a larger wall is the infinite stack.
+MAX_BAY_SIDE_M = 10.0
 
 _GL_CACHE: dict[int, tuple[np.ndarray, np.ndarray]] = {}
 _ROWS: OrderedDict = OrderedDict()  # (width, height, k, kt_max) -> (degree, coefficients)
@@ -80,17 +85,22 @@ class Panel:
     Parameters
     ----------
     width, height : float
-        Side lengths in m.
+        Side lengths in m, each at most :data:`MAX_BAY_SIDE_M`.
     """
 
     width: float
     height: float
 
     def __post_init__(self):
-        if not (self.width > 0 and self.height > 0 and np.isfinite(self.width)
-                and np.isfinite(self.height)):
-            raise ValueError(f"panel sides must be finite and > 0, got {self.width} x "
-                             f"{self.height} m")
+        for side in ("width", "height"):
+            value = getattr(self, side)
+            if isinstance(value, (bool, np.bool_)) or not isinstance(value, (int, float,
+                                                                               np.number)):
+                raise TypeError(f"panel {side} must be a number in m, got {value!r}")
+        if not (0 < self.width <= MAX_BAY_SIDE_M and 0 < self.height <= MAX_BAY_SIDE_M):
+            raise ValueError(f"panel sides must lie in (0, {MAX_BAY_SIDE_M:g}] m, got "
+                             f"{self.width} x {self.height} m (a larger wall: leave the "
+                             f"panel out, the infinite stack)")
 
     @property
     def area(self) -> float:

@@ -150,6 +150,11 @@ def ratings(nominal_hz, tl_db) -> Ratings:
     needs 125-4000 Hz, Rw 100-3150 Hz, OITC 80-4000 Hz) or not finite is ``None``, and
     ``result.unavailable`` says why.
     """
+    from .checks import ArgumentError
+
+    if np.size(nominal_hz) != np.size(tl_db):
+        raise ArgumentError(f"nominal_hz has {np.size(nominal_hz)} bands and tl_db "
+                            f"{np.size(tl_db)} values: give one TL per band")
     values, why = {}, {}
     for keys, fn in ((("stc",), stc), (("rw", "c", "ctr"), rw), (("oitc",), oitc)):
         try:

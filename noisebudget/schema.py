@@ -23,10 +23,11 @@ from .layers.base import Field
 from .units import QUANTITIES, parse_quantity
 
 __all__ = ["INVALID", "PLAIN_UNITS", "Reader", "Values", "check_name", "describe", "join",
-           "range_text", "read_toml", "read_table", "read_value", "suggest"]
+           "range_text", "read_bytes", "read_toml", "read_table", "read_value", "suggest"]
 
 PLAIN_UNITS = {"number": "", "db": "dB", "deg": "degrees"}  # plain numbers, display unit
 MAX_NAME = 100  # characters of a name (tables, legends and sheets stay readable)
+MAX_FILE_BYTES = 16 * 2**20  # an input file (stack, study, catalog, measured data)
 
 
 class _Invalid:
@@ -91,18 +92,31 @@ class Reader:
             raise InputErrors(list(seen.values()))
 
 
-def read_toml(path) -> dict:
-    """Read a TOML file (UTF-8, a byte-order mark allowed); a missing, unreadable or
-    malformed file raises InputError."""
+def read_bytes(path, what: str = "file") -> bytes:
+    """The bytes of an input file, at most :data:`MAX_FILE_BYTES` (a device such as
+    ``/dev/zero`` or a huge file is refused before it fills the memory); a missing,
+    unreadable or oversized file, or a folder, raises InputError."""
     path = Path(path)
     try:
-        raw = path.read_bytes()
+        with path.open("rb") as handle:
+            raw = handle.read(MAX_FILE_BYTES + 1)
     except FileNotFoundError:
         raise InputError(str(path), "", "file not found") from None
     except IsADirectoryError:
-        raise InputError(str(path), "", "is a folder, not a file") from None
+        raise InputError(str(path), "", f"is a folder, not a {what}") from None
     except OSError as exc:
         raise InputError(str(path), "", f"cannot read file ({exc.strerror or exc})") from None
+    if len(raw) > MAX_FILE_BYTES:
+        raise InputError(str(path), "", f"larger than {MAX_FILE_BYTES // 2**20} MB: not a "
+                                        f"{what} noisebudget reads")
+    return raw
+
+
+def read_toml(path) -> dict:
+    """Read a TOML file (UTF-8, a byte-order mark allowed); a missing, unreadable,
+    oversized or malformed file raises InputError."""
+    path = Path(path)
+    raw = read_bytes(path)
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:

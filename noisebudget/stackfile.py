@@ -28,7 +28,7 @@ from pathlib import Path
 
 from .catalog import CATALOG_META, load_catalog
 from .errors import InputError, InputNote, show
-from .finite_size import Panel
+from .finite_size import MAX_BAY_SIDE_M, Panel
 from .layerfile import LAYER_META, LayerEntry, build_layer
 from .layers.base import Field
 from .media import Air, standard_atmosphere
@@ -113,8 +113,9 @@ STACK_FILE: dict[str, Field] = {
                         doc="air in gaps and pores; default the receiving air"),
     "layer": Field("layers", required=True, read=read_layers,
                    doc="the layers from the source side to the receiving side"),
-    "panel": Field("table", schema={"width": Field("length", required=True, doc="bay width"),
-                                    "height": Field("length", required=True,
+    "panel": Field("table", schema={"width": Field("length", required=True, le=MAX_BAY_SIDE_M,
+                                                   doc="bay width"),
+                                    "height": Field("length", required=True, le=MAX_BAY_SIDE_M,
                                                     doc="bay height")},
                    doc="finite bay the stack fills (between frames and stringers): the "
                        "incidence averages window the radiated side to it; absent, the "

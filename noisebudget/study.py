@@ -20,6 +20,7 @@ import numpy as np
 
 from .catalog import load_catalog
 from .checks import MAX_VARIANTS
+from .finite_size import MAX_BAY_SIDE_M
 from .layers.base import Field
 from .media import Air
 from .schema import INVALID, Reader, join, read_table, read_toml, suggest
@@ -122,13 +123,13 @@ ZONE: dict[str, Field] = {
                                  "between them, constant outside; a tone takes the offset at "
                                  "its frequency)"),
     **FLANKING,
-    "panel_width": Field("length", needs=("panel_height",),
+    "panel_width": Field("length", needs=("panel_height",), le=MAX_BAY_SIDE_M,
                          doc="width of the panel that radiates into the cabin on this zone "
                              "(e.g. a trim panel): with panel_height, every package's stack "
                              "on the zone is a finite bay of that size (finite-size radiation "
                              "correction by spatial windowing; a stack file's own [panel] is "
                              "ignored with a note); at most the zone's area"),
-    "panel_height": Field("length", needs=("panel_width",),
+    "panel_height": Field("length", needs=("panel_width",), le=MAX_BAY_SIDE_M,
                           doc="height of that panel, with panel_width"),
     "notes": Field("text", doc="free text"),
 }
@@ -155,16 +156,17 @@ _LEAK_COMMON: dict[str, Field] = {
                               "transmit to it, it bypasses the rest); 0: through the whole "
                               "wall"),
 }
+MAX_LEAK_DEPTH_M = 1.0  # a leak runs through a sidewall, not along a duct
 SLIT: dict[str, Field] = {
     "width": Field("length", required=True, doc="narrow dimension of the slit"),
     "length": Field("length", required=True, doc="long dimension of the slit"),
-    "depth": Field("length", required=True, allow_zero=True,
+    "depth": Field("length", required=True, allow_zero=True, le=MAX_LEAK_DEPTH_M,
                    doc="wall thickness the slit runs through"),
     **_LEAK_COMMON,
 }
 HOLE: dict[str, Field] = {
     "diameter": Field("length", required=True, doc="hole diameter"),
-    "depth": Field("length", required=True, allow_zero=True,
+    "depth": Field("length", required=True, allow_zero=True, le=MAX_LEAK_DEPTH_M,
                    doc="wall thickness the hole runs through"),
     "count": Field("integer", ge=1, default=1, doc="number of holes, far apart"),
     **_LEAK_COMMON,

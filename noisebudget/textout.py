@@ -2,12 +2,17 @@
 
 from __future__ import annotations
 
+import math
+
 __all__ = ["fmt_number", "format_table", "no_negative_zero", "plural"]
 
 
 def fmt_number(v, digits: int = 1) -> str:
-    """A number for a table: fixed decimals for floats (never "-0.0"), as-is for the rest."""
+    """A number for a table: fixed decimals for floats (never "-0.0"), "-" for a value
+    that is not available (NaN, infinite), as-is for the rest."""
     if isinstance(v, float):
+        if not math.isfinite(v):
+            return "-"
         text = f"{v:.{digits}f}"
         if text.startswith("-") and float(text) == 0:
             text = text[1:]

@@ -96,7 +96,7 @@ def tune_peak(tile: Tile, target_hz: float, vary: str = "mass", cell: int = 0,
         hi = tile.pitch / 2
     if vary == "mass" and c.mass_radius == 0:
         raise TuningError("tuning the mass needs a central mass radius > 0")
-    fmin, fmax = target_hz / 20, target_hz * 20
+    fmin, fmax = target_hz / 20, min(target_hz * 20, 5e4)  # a search grid within 1e5 Hz
 
     def first_peak(x):
         ext = tile_extrema(tile.with_cell(cell, **{vary: float(np.exp(x))}), fmin, fmax,
@@ -184,6 +184,8 @@ def fit_tile(tile: Tile, f_hz, tl_db, fit_mass: bool = False, cell: int = 0,
     s2 = float(np.sum(res.fun**2)) / dof
     cov = np.linalg.pinv(res.jac.T @ res.jac) * s2
     half = stats.t.ppf(0.975, dof) * np.sqrt(np.diag(cov))
+    with np.errstate(over="ignore"):  # an undetermined parameter's interval: 0 .. inf
+        lower, upper = np.exp(res.x - half), np.exp(res.x + half)
     fitted = build(res.x)
     ext = tile_extrema(fitted, f.min(), f.max(), air)
     dip_err = peak_err = float("nan")
@@ -191,6 +193,6 @@ def fit_tile(tile: Tile, f_hz, tl_db, fit_mass: bool = False, cell: int = 0,
         dip_err = 100 * (ext.dip_hz[0] / _measured_extremum(f, y, 1.0, ext.dip_hz[0]) - 1)
     if ext.peak_hz.size:
         peak_err = 100 * (ext.peak_hz[0] / _measured_extremum(f, y, -1.0, ext.peak_hz[0]) - 1)
-    return FitResult(fitted, names, np.exp(res.x), np.exp(res.x - half), np.exp(res.x + half),
+    return FitResult(fitted, names, np.exp(res.x), lower, upper,
                      float(np.sqrt(np.mean(res.fun**2))), dip_err, peak_err)
 

@@ -258,6 +258,22 @@ def _address(t, where, name, layer_entries, own, zone_names, reader):
                                            f"{suggest(key, numeric) if not hint else hint} "
                                            f"(numeric keys: {', '.join(numeric)})")
         return None
+    # the value as written is the reference the variants are compared with: one number
+    values = entry.values if cell is None else entry.values["cell"][cell - 1]
+    written = values.get(key)
+    if written is None:  # given by another key of its group (a tension by its prestress)
+        written = getattr(entry.layer if cell is None else entry.layer.cells[cell - 1], key,
+                          None)
+    if written is None:
+        reader.problem(join(where, "key"), f"{what} does not give {key!r} (the model "
+                                           f"supplies it): write it in the layer, the value "
+                                           f"the variants are compared with")
+        return None
+    if isinstance(written, tuple):
+        reader.problem(join(where, "key"), f"{what} gives {key!r} as a pair of values: a "
+                                           f"trade study varies one number; write one value "
+                                           f"in the layer")
+        return None
     group = tuple(k for k, f in schema.items() if spec.group and f.group == spec.group
                   and k != key)
     return zone, index, cell, spec, LayerTarget(cls, entry.values), (), group

@@ -61,6 +61,18 @@ def test_tl_grid_options_refused_with_one_line(capsys, options, words):
     (["--profile", "inf"], "--profile: 'inf' is not a frequency"),
     (["--profile", "1e7"], "--profile: 1e+07 Hz: must lie in"),
     (["--tune-peak", "1e12Hz"], "--tune-peak: 1e+12 Hz: must lie in"),
+    # above 5 kHz the search grid once left the library's frequency range
+    (["--tune-peak", "30 kHz"], "--tune-peak: 30000 Hz: must lie in 0.001 .. 20000 Hz"),
+    (["--tune-peak", "20 kHz"], "no mass within 1e-06 .. 0.1 (SI) puts the first TL peak at "
+                                "20000 Hz"),
+    # options that apply to another one, or two that would each write a tile
+    (["--fit-mass"], "--fit-mass applies to --fit only"),
+    (["--vary", "radius"], "--vary applies to --tune-peak only"),
+    (["--tune-peak", "150", "--fit", "m.csv"], "--tune-peak and --fit: give one of them"),
+    # an output that cannot be written is refused before any computation
+    (["--tune-peak", "150", "-o", "/nonexistent-folder/t.toml"],
+     "--output: no folder '/nonexistent-folder' to write it in"),
+    (["--tune-peak", "150", "-o", "/tmp"], "/tmp: --output: is a folder; give a file name"),
 ])
 def test_tile_options_refused_with_one_line(capsys, options, words):
     assert main(["tile", TILE, *options]) == 2
@@ -124,6 +136,9 @@ FIT_CASES = {  # name: (bytes, expected words); '*' means a folder
     "header": (b"f,tl\n100,3\n", "line 1: expected the header 'frequency_hz,tl_db'"),
     "three": (b"frequency_hz,tl_db\n100,3,4\n", "line 2: expected two numbers"),
     "negative": (b"frequency_hz,tl_db\n-100,3\n", "line 2: frequency -100 Hz: must lie in"),
+    "huge": (b"frequency_hz,tl_db\n" + b"100,3\n" * (3 * 2**20), "larger than 16 MB"),
+    "tl-absurd": (b"frequency_hz,tl_db\n100,3\n200,1e6\n", "line 3: TL 1e+06 dB: must lie in "
+                                                        "-50 .. 200 dB"),
 }
 
 
@@ -138,6 +153,44 @@ def test_fit_data_files_refused_with_one_line(tmp_path, capsys, name):
     assert main(["tile", TILE, "--fit", str(path)]) == 2
     line = one_line(capsys)
     assert line.startswith(str(path)) and words in line
+
+
+def test_a_device_is_read_no_further_than_the_file_size_limit(capsys):
+    # /dev/zero never ends: it is refused after 16 MB instead of filling the memory
+    for argv in (["tl", "/dev/zero"], ["check", "/dev/zero"], ["tile", TILE, "--fit", "/dev/zero"]):
+        assert main(argv) == 2
+        line = one_line(capsys)
+        assert line.startswith("/dev/zero: ") and "larger than 16 MB" in line
+
+
+def test_a_bay_beyond_the_largest_side_is_refused_by_the_api():
+    # the radiation table's cost grows as (k D)^2: a 100 m bay never finishes
+    from noisebudget.layers import Septum
+
+    stack = nb.Stack([Septum(2.0)])
+    for width, height in [(20.0, 1.0), (1.0, 1e5), (np.nan, 1.0), (0.0, 1.0)]:
+        with pytest.raises(ValueError, match=r"must lie in \(0, 10\] m"):
+            stack.with_panel(width, height)
+    assert stack.with_panel(10.0, 10.0).panel.area == 100.0
+    for width in ("1 m", None, True):
+        with pytest.raises(TypeError, match="panel width must be a number in m"):
+            stack.with_panel(width, 1.0)
+
+
+def test_ratings_name_a_length_mismatch():
+    with pytest.raises(ArgumentError, match="nominal_hz has 3 bands and tl_db 2 values"):
+        nb.ratings(np.array([100.0, 125.0, 160.0]), np.array([20.0, 22.0]))
+
+
+def test_no_infinite_level_or_nan_reaches_a_text_table():
+    # a path whose energy underflows shows at the -300 dB floor (the TL cap's), and a value
+    # the bands do not allow (SIL4 without its octaves) is "-" in the terminal's tables
+    from noisebudget.budget_tables import level_db
+    from noisebudget.textout import fmt_number, format_table
+
+    np.testing.assert_array_equal(level_db(np.array([0.0, 1e-40, 1.0])), [-300.0, -300.0, 0.0])
+    assert fmt_number(float("nan")) == "-" and fmt_number(float("-inf")) == "-"
+    assert "nan" not in format_table(["a", "b"], [("x", float("nan"))])
 
 
 def test_fit_data_file_with_byte_order_mark_is_read(tmp_path):
@@ -180,3 +233,48 @@ def test_tl_bands_third_above_80_hz_prints_partial_ratings(capsys):
     captured = capsys.readouterr()
     assert "OITC -" in captured.out and "STC " in captured.out
     assert "note: OITC unavailable: OITC needs one-third-octave bands 80-4000 Hz" in captured.err
+
+
+def test_a_fit_that_cannot_determine_a_parameter_says_so(tmp_path, capsys):
+    # measured points far above the tile's resonances leave the central mass undetermined:
+    # its interval is "not determined", with no overflow warning on the way
+    stack = tmp_path / "tile.toml"
+    stack.write_text('[[layer]]\ntype = "tile"\npitch = "22 mm"\nframe = "clamped"\n'
+                     '[[layer.cell]]\nradius = "10 mm"\nmembrane_thickness = "0.25 mm"\n'
+                     'membrane_density = "1000 kg/m^3"\ntension = "80 N/m"\nmass = "0.4 g"\n'
+                     'mass_radius = "2 mm"\n')
+    data = tmp_path / "m.csv"
+    data.write_text("frequency_hz,tl_db\n" + "".join(f"{f},20\n" for f in range(16000, 20001,
+                                                                              1000)))
+    assert main(["tile", str(stack), "--fit", str(data), "--fit-mass"]) == 0
+    out, err = capsys.readouterr()
+    mass_row = next(line for line in out.splitlines() if line.startswith("mass "))
+    assert "not determined" in mass_row and "inf" not in out
+    assert "warning" not in err
+
+
+_LAYERS = {  # a valid layer of each directly built class, keyword arguments
+    "Septum": dict(surface_density=1.0),
+    "AirGap": dict(gap=0.05),
+    "Solid": dict(layer_thickness=3e-3, density=1200.0, youngs_modulus=3e9, poisson_ratio=0.3),
+    "Sandwich": dict(face_thickness=2.5e-4, face_density=1900.0, face_youngs_modulus=2e10,
+                     core_thickness=0.01, core_density=48.0, core_shear_modulus=3e7),
+    "Plate": dict(surface_density=4.0, bending_stiffness=100.0, youngs_modulus=73e9),
+}
+
+
+@pytest.mark.parametrize("cls, field, bad", [
+    (cls, field, bad) for cls, kw in _LAYERS.items() for field in kw
+    for bad in (-1.0, float("nan"), float("inf"))
+    if not (cls == "Solid" and field == "poisson_ratio" and bad == -1.0)] + [
+    ("Plate", "loss_factor", float("nan")), ("Plate", "in_plane_tension", float("nan")),
+    ("Plate", "poisson_ratio", 0.5), ("Sandwich", "loss_factor", -0.1),
+    ("AirGap", "loss_factor", float("inf")), ("Solid", "loss_factor", float("nan"))])
+def test_layers_built_in_a_script_refuse_what_a_file_would(cls, field, bad):
+    # a negative, NaN or infinite parameter is refused by the layer itself, naming the key,
+    # so no NaN or silent wrong number comes out of a stack built without a file
+    from noisebudget import layers
+
+    with pytest.raises(layers.LayerValueError):
+        getattr(layers, cls)(**{**_LAYERS[cls], field: bad})
+    getattr(layers, cls)(**_LAYERS[cls])  # the valid layer builds

@@ -356,6 +356,11 @@ REFUSED = [
          'mass_radius = "6 mm" }]', "layer[5].cell[1].mass_radius", "must be smaller"),
     Case("include-missing", T, 'stack = "part.toml"', 'stack = "nope.toml"',
          "package[1].zone.wall.stack", "nope.toml: file not found"),
+    Case("include-device", T, 'stack = "part.toml"', 'stack = "/dev/zero"',
+         "package[1].zone.wall.stack", "/dev/zero: larger than 16 MB: not a file noisebudget "
+         "reads"),
+    Case("include-huge-file", T, 'stack = "part.toml"', 'stack = "huge.toml"',
+         "package[1].zone.wall.stack", "huge.toml: larger than 16 MB"),
     Case("include-cycle", S, 'use = "tile.bpf-105-floating"', 'stack = "loop.toml"',
          "layer[2].stack", "include cycle: loop.toml -> loop.toml", "loop.toml"),
     Case("stack-given-to-check", T, None, STACK, "layer", "unknown key"),
@@ -412,6 +417,10 @@ REFUSED = [
     Case("leak-larger-than-zone", T, 'length = "2 m"', 'length = "30 km"',
          "package[1].zone.wall.leak", "the leaks' open area (30 m^2) must be smaller than "
          "the zone's area (20 m^2)"),
+    Case("leak-depth-huge", T, 'depth = "5 mm"', 'depth = "100 km"',
+         "package[1].zone.wall.leak[1].depth", "must lie in [0 m, 1 m], got '100 km'"),
+    Case("hole-depth-huge", T, 'depth = "2 mm"', 'depth = "2 m"',
+         "package[2].zone.wall.leak[1].depth", "must lie in [0 m, 1 m]"),
     Case("hole-count-zero", T, "count = 4", "count = 0", "package[2].zone.wall.leak[1].count",
          "must be >= 1"),
     Case("hole-behind-too-far", T, "behind_layer = 2", "behind_layer = 3",
@@ -539,7 +548,17 @@ REFUSED = [
          "did you mean 'grid'?"),
         ("vary-single-table", VARY.replace("[[vary]]", "[vary]"), "vary",
          "expected an array of tables ([[vary]]), got a single table"),
+        # the value as written is the sweep's reference: one number the layer gives
+        ("key-unwritten", WINDOW.replace('"poisson_ratio"', '"in_plane_tension"').replace(
+            "[0.3, 0.6]", '["1 kN/m", "3 kN/m"]'), "vary[1].key",
+         "layer 1 (a plate layer) does not give 'in_plane_tension' (the model supplies it)"),
     ]],
+    Case("vary-key-pair", T, None, STUDY.replace(
+        'youngs_modulus = "3 GPa"}', 'youngs_modulus = "3 GPa", in_plane_tension = ["1 kN/m", '
+                                     '"2 kN/m"]}')
+         + WINDOW.replace('"poisson_ratio"', '"in_plane_tension"').replace(
+             "[0.3, 0.6]", '["1 kN/m", "3 kN/m"]'), "vary[1].key",
+         "gives 'in_plane_tension' as a pair of values: a trade study varies one number"),
     # zone bays: both sides or neither, a length, no larger than the zone
     Case("bay-width-alone", T, "flanking_tl_db = 45", 'flanking_tl_db = 45\npanel_width = "1 m"',
          "zone[1].panel_width", "needs panel_height as well"),
@@ -555,7 +574,13 @@ REFUSED = [
          "zone[1].panel_width", "has no unit"),
     Case("bay-negative", T, "flanking_tl_db = 45",
          'flanking_tl_db = 45\npanel_width = "1 m"\npanel_height = "-1.4 m"',
-         "zone[1].panel_height", "must be > 0"),
+         "zone[1].panel_height", "must lie in (0 m, 10 m]"),
+    # a bay beyond 10 m a side would take hours (the radiation table grows as (k D)^2):
+    # refused in a zone and in a stack file's [panel]
+    Case("bay-huge", T, 'area = "20 m^2"', 'area = "1e6 m^2"\npanel_width = "1 km"\n'
+         'panel_height = "1 km"', "zone[1].panel_width", "must lie in (0 m, 10 m], got '1 km'"),
+    Case("stack-panel-huge", S, 'title = "corpus stack"', 'title = "corpus stack"\n[panel]\n'
+         'width = "100 km"\nheight = "1 m"', "panel.width", "must lie in (0 m, 10 m]"),
     # files that are not TOML text
     Case("binary", T, None, b"\x00\x01\xff\xfe garbage \x80", "", "not UTF-8 text"),
     Case("latin-1", S, None, 'title = "caf\xe9"\n'.encode("latin-1"), "", "not UTF-8 text"),
@@ -569,6 +594,8 @@ REFUSED = [
 def _write(tmp_path, case):
     (tmp_path / "part.toml").write_text(PART)
     (tmp_path / "loop.toml").write_text(LOOP)
+    if "huge" in case.id:
+        (tmp_path / "huge.toml").write_text("# padding\n" * (2 * 2**20))  # 20 MB of comments
     path = tmp_path / f"{case.id}.toml"
     text = case.text()
     if isinstance(text, bytes):

@@ -73,7 +73,8 @@ def test_panel_table_sets_the_bay(tmp_path):
     assert s.panel == nb.Panel(0.5, 0.2)
     assert nb.load_stack(write(tmp_path, SIDEWALL)).panel is None
     for body, key, words in [('width = "0.5 m"', "panel.height", "missing"),
-                             ('width = "-0.5 m"\nheight = "0.2 m"', "panel.width", "> 0"),
+                             ('width = "-0.5 m"\nheight = "0.2 m"', "panel.width",
+                              "must lie in (0 m, 10 m]"),
                              ('width = "0.5 m"\nheight = "0.2 m"\ndepth = "1 m"', "panel.depth",
                               "unknown key")]:
         with pytest.raises(nb.InputErrors) as info:

@@ -483,6 +483,10 @@ def test_a_varied_key_replaces_its_alternatives(tmp_path, capsys):
     cells = [apply_variant(pkg, spec.parameters, x).stacks["wall"].layers[2].cells[0]
              for x in design(spec)]
     assert [c.tension for c in cells] == pytest.approx([50.0, 100.0])  # sigma x 0.25 mm
+    # the sweep's reference is the tension as written, as a prestress: 80 N/m / 0.25 mm
+    from noisebudget.trade.variants import as_written
+
+    assert as_written(spec.parameters, pkg) == pytest.approx([320e3])
     # both at once cannot be: one would be ignored
     both = v + vary(layer=3, cell=1, key="tension", values=["60 N/m"])
     assert main(["check", str(write(tmp_path, study(tile, both)))]) == 2

@@ -126,7 +126,8 @@ def test_the_zone_bay_applies_to_every_package_and_overrides_a_stack_file_panel(
     ('panel_height = "1 m"', "zone[1].panel_height", "needs panel_width as well"),
     ('panel_width = "5 m"\npanel_height = "4.5 m"', "zone[1].panel_width",
      "the bay (5 m x 4.5 m = 22.5 m^2) is larger than the zone (20 m^2)"),
-    ('panel_width = "-1 m"\npanel_height = "1 m"', "zone[1].panel_width", "must be > 0"),
+    ('panel_width = "-1 m"\npanel_height = "1 m"', "zone[1].panel_width",
+     "must lie in (0 m, 10 m]"),
 ])
 def test_bad_bays_are_refused_by_check_and_run(tmp_path, capsys, bay, key, words):
     (tmp_path / "wall.toml").write_text(LAYERS)

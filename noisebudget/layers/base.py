@@ -31,6 +31,7 @@ takes its membrane tension from it).
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping
 from dataclasses import KW_ONLY, dataclass, field, fields
 from typing import Any, ClassVar
@@ -38,7 +39,7 @@ from typing import Any, ClassVar
 import numpy as np
 
 __all__ = ["Field", "FluidElement", "Layer", "LayerValueError", "LayerValueErrors",
-           "SheetElement"]
+           "SheetElement", "require"]
 
 
 class LayerValueError(ValueError):
@@ -51,6 +52,25 @@ class LayerValueError(ValueError):
 
     def __reduce__(self):
         return (type(self), (self.key, self.reason))
+
+
+def require(key: str, value, low: float = 0.0, *, above: bool = False,
+            high: float | None = None, below: bool = False) -> None:
+    """Raise :class:`LayerValueError` unless ``value`` is a finite number ``>= low`` (``>``
+    with ``above``) and, given ``high``, ``<= high`` (``<`` with ``below``): a layer built
+    in a script is checked as a layer read from a file, so NaN never reaches a result."""
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise LayerValueError(key, f"expected a number, got {value!r}") from None
+    ok = math.isfinite(v) and (v > low if above else v >= low)
+    if high is not None:
+        ok = ok and (v < high if below else v <= high)
+        rule = f"must lie in {'(' if above else '['}{low:g}, {high:g}{')' if below else ']'}"
+    else:
+        rule = f"must be {'>' if above else '>='} {low:g}"
+    if not ok:
+        raise LayerValueError(key, f"{rule} (a finite number), got {value!r}")
 
 
 class LayerValueErrors(LayerValueError):

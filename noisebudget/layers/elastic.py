@@ -17,7 +17,7 @@ from typing import ClassVar
 
 import numpy as np
 
-from .base import Field, Layer, LayerValueError
+from .base import Field, Layer, LayerValueError, require
 
 __all__ = ["BiotElement", "Solid", "SolidElement", "lame_constants"]
 
@@ -108,11 +108,9 @@ class Solid(Layer):
             raise LayerValueError("poisson_ratio", f"must lie in [0, 0.5), got "
                                                    f"{self.poisson_ratio}")
         for key in ("density", "youngs_modulus"):
-            if not getattr(self, key) > 0:
-                raise LayerValueError(key, f"must be > 0, got {getattr(self, key)}")
-        if self.layer_thickness < 0 or self.loss_factor < 0:
-            raise LayerValueError("thickness" if self.layer_thickness < 0 else "loss_factor",
-                                  "must be >= 0")
+            require(key, getattr(self, key), above=True)
+        require("thickness", self.layer_thickness)
+        require("loss_factor", self.loss_factor, high=2.0)
 
     @property
     def thickness(self):

@@ -6,7 +6,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .base import Field, FluidElement, Layer, LayerValueError
+from .base import Field, FluidElement, Layer, require
 
 __all__ = ["AirGap"]
 
@@ -40,8 +40,8 @@ class AirGap(Layer):
     type_name = "air"
 
     def __post_init__(self):
-        if not self.loss_factor >= 0:
-            raise LayerValueError("loss_factor", f"must be >= 0, got {self.loss_factor}")
+        require("thickness", self.gap)
+        require("loss_factor", self.loss_factor, high=2.0)
 
     @property
     def thickness(self) -> float:

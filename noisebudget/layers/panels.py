@@ -15,7 +15,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from .base import Field, Layer, LayerValueError, SheetElement
+from .base import Field, Layer, LayerValueError, SheetElement, require
 
 __all__ = ["Plate", "Sandwich", "Septum"]
 
@@ -49,6 +49,10 @@ class Septum(Layer):
     @property
     def areal_mass(self):
         return self.surface_density
+
+    def __post_init__(self):
+        require("surface_density", self.surface_density)
+        require("thickness", self.sheet_thickness)
 
     def element(self, omega, kt, air):
         return SheetElement(1j * omega * self.surface_density)
@@ -158,15 +162,23 @@ class Plate(Layer):
     type_name = "plate"
 
     def __post_init__(self):
+        require("surface_density", self.surface_density)
+        require("loss_factor", self.loss_factor, high=2.0)
+        require("thickness", self.plate_thickness)
+        require("poisson_ratio", self.poisson_ratio, high=0.5, below=True)
+        if self.youngs_modulus is not None:
+            require("youngs_modulus", self.youngs_modulus)
         d = _pair(self.bending_stiffness, "bending_stiffness")
+        for v in d:
+            require("bending_stiffness", v)
         if d[0] == d[1]:
             d = d[0]
         elif min(d) <= 0:
             raise LayerValueError("bending_stiffness", "must be > 0")
         object.__setattr__(self, "bending_stiffness", d)
         n = _pair(self.in_plane_tension, "in_plane_tension")
-        if n is not None and min(n) < 0:
-            raise LayerValueError("in_plane_tension", f"must be >= 0, got {n}")
+        if n is not None and not (min(n) >= 0 and np.all(np.isfinite(n))):
+            raise LayerValueError("in_plane_tension", f"must be >= 0 (finite), got {n}")
         object.__setattr__(self, "in_plane_tension", n)
         if not self.curvature_radius > 0:
             raise LayerValueError("curvature_radius", f"must be > 0, got "
@@ -462,8 +474,10 @@ class Sandwich(Layer):
     def __post_init__(self):
         for name in ("face_thickness", "face_density", "face_youngs_modulus",
                      "core_thickness", "core_shear_modulus"):
-            if not getattr(self, name) > 0:
-                raise LayerValueError(name, f"must be > 0, got {getattr(self, name)}")
+            require(name, getattr(self, name), above=True)
+        for name in ("core_density", "added_surface_density"):
+            require(name, getattr(self, name))
+        require("loss_factor", self.loss_factor, high=2.0)
         if not 0.0 <= self.face_poisson_ratio < 0.5:
             raise LayerValueError("face_poisson_ratio", f"must lie in [0, 0.5), got "
                                                         f"{self.face_poisson_ratio}")

@@ -223,6 +223,11 @@ class Cell:
         return self.membrane_density * self.membrane_thickness
 
     @property
+    def prestress(self) -> float:
+        """Membrane stress sigma = T / h, Pa (the file's alternative to the tension)."""
+        return self.tension / self.membrane_thickness
+
+    @property
     def disk_mass(self) -> float:
         """Mass moving with the disk: M plus the membrane under it."""
         return self.mass + self.surface_density * np.pi * self.mass_radius**2
