@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import os
 import sys
 import warnings
 
@@ -243,8 +244,28 @@ def main(argv=None) -> int:
 
     User mistakes print one line each and return 2. SIGINT and SIGTERM print one line
     and return 130 and 143 (128 + signal number) after clean-up: no traceback, no
-    temporary file left, earlier outputs intact. Each warning is printed once.
+    temporary file left, earlier outputs intact. Each warning is printed once. A task
+    still running on a worker thread when the signal came is not waited for: once the
+    clean-up is done the process ends with that status.
     """
+    status = _main(argv)
+    if status in (130, 143) and _busy_threads():
+        sys.stdout.flush()
+        sys.stderr.flush()
+        os._exit(status)
+    return status
+
+
+def _busy_threads() -> bool:
+    """Whether one of the budget's worker threads is still running a computation."""
+    import threading
+
+    paths = sys.modules.get("noisebudget.zone_paths")  # not imported: no worker threads
+    return paths is not None and any(t.name.startswith(paths.WORKER_PREFIX) and t.is_alive()
+                                     for t in threading.enumerate())
+
+
+def _main(argv) -> int:
     import signal
     import threading
 

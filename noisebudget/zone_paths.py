@@ -230,10 +230,19 @@ def _groups(leaks) -> dict:
     return out
 
 
+WORKER_PREFIX = "noisebudget-paths"  # names of the worker threads
+
+
 def _run(tasks: dict) -> dict:
     """Run the tasks, on a thread pool when there are several and several cores."""
     workers = min(len(tasks), os.cpu_count() or 1)
     if workers <= 1:
         return {k: fn() for k, fn in tasks.items()}
-    with ThreadPoolExecutor(max_workers=workers) as pool:
-        return dict(zip(tasks, pool.map(lambda fn: fn(), tasks.values()), strict=True))
+    pool = ThreadPoolExecutor(max_workers=workers, thread_name_prefix=WORKER_PREFIX)
+    try:
+        out = dict(zip(tasks, pool.map(lambda fn: fn(), tasks.values()), strict=True))
+    except BaseException:  # SIGINT, SIGTERM or an error: start no further task
+        pool.shutdown(wait=False, cancel_futures=True)
+        raise
+    pool.shutdown()
+    return out

@@ -60,8 +60,20 @@ DRIVER = textwrap.dedent(r'''
         sys.stdin.read()
         raise SystemExit("not interrupted")
 
+    def busy_workers(path):    # interrupted while the budget's worker threads compute
+        import threading
+        from noisebudget import zone_paths
+
+        def task():
+            print("MARK computing", flush=True)
+            threading.Event().wait()  # a computation that would not end by itself
+        zone_paths._run({"a": task, "b": task})
+        raise SystemExit("not interrupted")
+
     report.write_reports = no_pdf
-    if mode == "hold":
+    if mode == "pool":
+        study.run_study = busy_workers
+    elif mode == "hold":
         study.run_study = hold
     elif mode == "stuck":
         study.run_study = stuck
@@ -145,6 +157,24 @@ def test_interrupt_before_anything_exists_leaves_no_folder(tmp_path):
     rc, _, err = finish(proc)
     assert rc == 143 and "Traceback" not in err
     assert not out.exists()
+
+
+@pytest.mark.parametrize("sig, code", [(signal.SIGINT, 130), (signal.SIGTERM, 143)])
+def test_interrupt_does_not_wait_for_running_worker_threads(tmp_path, sig, code):
+    out = tmp_path / "out"
+    before = earlier_set(out)
+    proc = start("pool", out, "--force")
+    wait_marker(proc, "computing")
+    proc.send_signal(sig)
+    try:
+        _, err = proc.communicate(timeout=60)  # the workers' tasks never end
+    except subprocess.TimeoutExpired:
+        proc.kill()
+        proc.communicate()
+        pytest.fail("the run waited for its worker threads after the signal")
+    assert proc.returncode == code, err
+    assert_one_line(err, r"^noisebudget: .*no partial output left")
+    assert snapshot(out) == before
 
 
 def test_second_run_into_a_locked_folder_is_refused(tmp_path):
