@@ -275,19 +275,23 @@ def add_tone_energy(energy, tone_incident_db, tone_tau, areas, tone_absorption, 
     return e
 
 
-def compute_budget(inp: StudyInputs) -> StudyResult:
+def compute_budget(inp: StudyInputs, rtol: float | None = None) -> StudyResult:
     """Run the budget for every package and condition.
 
     Three stages: transmission coefficients of every distinct stack and leak (the
     physics kernel, :func:`noisebudget.zone_paths.zone_transmissions`), the energy
     arrays (:func:`budget_arrays`), and the tables (:mod:`noisebudget.budget_tables`).
+    ``rtol`` is the walls' estimated relative accuracy (default
+    :data:`noisebudget.zone_paths.WALL_RTOL`, 3e-3: 0.013 dB); a trade study passes its
+    own (:data:`noisebudget.trade.evaluate.TRADE_RTOL`).
     """
     from .budget_tables import build_tables
-    from .zone_paths import zone_transmissions
+    from .zone_paths import WALL_RTOL, zone_transmissions
 
     bands = _union_bands(inp)
     tones = _tones(inp, bands)
-    trans = zone_transmissions(inp, bands, np.unique(tones["hz"]))
+    trans = zone_transmissions(inp, bands, np.unique(tones["hz"]),
+                               WALL_RTOL if rtol is None else rtol)
     arrays = budget_arrays(inp, bands, tones, trans)
     return build_tables(inp, arrays)
 

@@ -128,9 +128,12 @@ def adaptive_panels(gk, row, lo, hi, nrows: int, rtol: float = 3e-3, max_passes:
 
     Notes
     -----
-    Each pass bisects the ``per_pass`` panels with the largest error of every row whose
-    summed error exceeds ``rtol`` of its integral (ties broken by the panels' order;
-    panels without error are never bisected). Only those panels are evaluated: a row's
+    Each pass bisects, in every row whose summed error exceeds ``rtol`` of its integral,
+    the panels with the largest error, as many as it takes for their errors to cover
+    that excess and at most ``per_pass`` (ties broken by the panels' order; panels
+    without error are never bisected): a row's panels of small error are left alone
+    while a few large ones carry the excess, and the passes go on until every row meets
+    its tolerance. Only those panels are evaluated: a row's
     result depends on its own integrand alone, bit for bit, whatever rows share the
     call (the left half replaces its panel, the right half is appended, and sums run in
     the panels' order).
@@ -145,7 +148,8 @@ def adaptive_panels(gk, row, lo, hi, nrows: int, rtol: float = 3e-3, max_passes:
             return gk(r, a, b, aux[which])
     val, err = (gk(row, lo, hi) if aux is None else gk(row, lo, hi, aux))
     for _ in range(max_passes):  # refinement passes, each vectorised over rows
-        bad = _row_sums(row, err, nrows) > rtol * np.abs(_row_sums(row, val, nrows))
+        excess = _row_sums(row, err, nrows) - rtol * np.abs(_row_sums(row, val, nrows))
+        bad = excess > 0
         idx = np.flatnonzero(bad[row] & (err > 0))
         if idx.size == 0:
             break
@@ -153,7 +157,17 @@ def adaptive_panels(gk, row, lo, hi, nrows: int, rtol: float = 3e-3, max_passes:
         r = row[order]
         first = np.flatnonzero(np.r_[True, r[1:] != r[:-1]])
         rank = np.arange(r.size) - np.repeat(first, np.diff(np.r_[first, r.size]))
-        pick = np.sort(order[rank < per_pass])
+        top = rank < per_pass
+        # of a row's largest errors, only as many as cover its excess over the tolerance
+        # (each row's running sum in its own order: independent of the other rows)
+        at = np.repeat(np.arange(first.size), np.diff(np.r_[first, r.size]))[top]
+        slot = np.zeros((first.size, per_pass))
+        slot[at, rank[top]] = err[order[top]]
+        before = np.zeros(slot.shape)
+        np.cumsum(slot[:, :-1], axis=1, out=before[:, 1:])
+        sel = top.copy()
+        sel[top] = before[at, rank[top]] < excess[r[first]][at]
+        pick = np.sort(order[sel])
         a, b = lo[pick], hi[pick]
         m = (a + b) / 2
         n = pick.size

@@ -33,10 +33,10 @@ _CATEGORIES = {c.__name__: c for c in (ModelRangeWarning, RuntimeWarning, UserWa
 
 def chunk_size(n: int) -> int:
     """Variants per chunk for ``n`` variants: about 8 chunks (work for a few processes),
-    1 to 64 variants each (a chunk is one batch of the transmission kernels,
-    :mod:`noisebudget.batch`, whose cost per variant falls with the batch up to some
-    dozens of variants)."""
-    return max(1, min(64, math.ceil(n / 8)))
+    1 to 256 variants each (a chunk is one batch of the transmission kernels,
+    :mod:`noisebudget.batch`, whose cost per variant falls with the batch: the demo
+    sidewall's CPU time per variant is about 10 % lower in batches of 256 than of 64)."""
+    return max(1, min(256, math.ceil(n / 8)))
 
 
 def chunks(n: int, size: int, done=None) -> list[tuple[int, int]]:
