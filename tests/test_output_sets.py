@@ -33,7 +33,10 @@ DEMO = data_path("examples", "demo-study.toml")
 SET = output_names("demo-study", KINDS)
 
 DRIVER = textwrap.dedent(r'''
+    import signal
     import sys
+    # SIGINT as from a terminal, even where the test runner was started with it ignored
+    signal.signal(signal.SIGINT, signal.default_int_handler)
     import noisebudget.cli as cli
     import noisebudget.report as report
     import noisebudget.study as study
