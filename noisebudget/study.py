@@ -441,6 +441,10 @@ def _interior_sources(entries, conditions, reader, zone_names, condition_names):
                 reader.problem(join(join(where, "conditions"), j),
                                f"no condition {c!r}{suggest(c, condition_names)}")
                 ok = False
+            elif c in applies[:j - 1]:
+                reader.problem(join(join(where, "conditions"), j),
+                               f"condition {c!r} is listed twice")
+                ok = False
         thirds = _thirds(v)
         if thirds is not None:
             for c in conditions:
