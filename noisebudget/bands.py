@@ -127,6 +127,17 @@ def band_average(func, bands: Bands, rtol: float = 3e-3, max_passes: int = 12,
     coincidence inside a band is resolved. ``func`` maps a 1-D frequency array to values
     of the same shape.
 
+    A panel's error estimate is ``|K15 - G7|``, the 7-point Gauss rule's error, taken for
+    the Kronrod result (exact to degree 23 against the Gauss rule's 13): conservative
+    wherever the panel resolves the integrand. QUADPACK's rescaling of it (Piessens et
+    al. 1983, qk15: ``resasc min(1, (200 |K - G| / resasc)^1.5)``, kept for the angle
+    integrals inside, where narrow peaks of a bay's radiation can escape both rules) is
+    far more pessimistic at a band average's tolerance: on the demo sidewall's high
+    bands it asked for three bisections after a first panel already within 1e-4.
+    Measured over every demo stack in its bay to 10 kHz at 3e-3, against the old
+    estimate at 3e-5: the same worst band difference (0.008 dB) with about half the
+    frequencies.
+
     With ``groups`` (an int), the average is taken for that many independent quantities
     at once (e.g. variants of a stack): ``func(group, f)`` receives the group index of
     each frequency, each (group, band) is refined on its own, and the result is shaped
@@ -147,12 +158,7 @@ def band_average(func, bands: Bands, rtol: float = 3e-3, max_passes: int = 12,
             q = func(np.repeat(row // nb, x.size), f.ravel())
         q = np.asarray(q, dtype=float).reshape(f.shape)
         ik, ig = h * _weighted_sum(q, wk), h * _weighted_sum(q, wg)
-        resasc = h * _weighted_sum(np.abs(q - (ik / (2 * h))[:, None]), wk)
-        raw = np.abs(ik - ig)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            err = np.where(resasc > 0, resasc * np.minimum(1.0, (200 * raw / resasc) ** 1.5),
-                           raw)
-        return ik, err
+        return ik, np.abs(ik - ig)
 
     # at least one 15-point panel per one-third octave (three per octave band)
     per = max(1, int(np.ceil(3 / bands.b)))

@@ -42,9 +42,11 @@ Time convention ``exp(+j omega t)``.
 from __future__ import annotations
 
 from dataclasses import fields, is_dataclass
+from typing import NamedTuple
 
 import numpy as np
 
+from . import kernels
 from .bands import Bands, band_average
 from .incidence import (
     INCIDENCE,
@@ -159,6 +161,19 @@ class _Batch:
                                                   strict=True)]
 
 
+class _FluidRows(NamedTuple):
+    """A fluid layer's numbers per row, as :func:`noisebudget.kernels.fluid_back` takes
+    them: ``q = omega^2 rho / K`` (real and imaginary parts), whether the layer is
+    lossless everywhere, the prefactors ``j omega rho d`` and ``j / (omega rho)``, and d."""
+
+    q_re: np.ndarray
+    q_im: np.ndarray
+    real: bool
+    c12: np.ndarray
+    c21: np.ndarray
+    d: np.ndarray
+
+
 # ---- the rows: a variant and a frequency each ----------------------------------------------
 
 class _Rows:
@@ -195,11 +210,13 @@ class _Rows:
                     self.steps.append(None)
                     self.mass.append(None)
                     continue
-                q = self.omega**2 * rho / bulk
+                q = self.omega**2 * rho / bulk + 0j
                 real = not (np.any(np.imag(rho)) or np.any(np.imag(bulk)))
-                self.steps.append(("fluid", np.real(q) if real else q + 0j,
-                                   1j * self.omega * rho * d, 1j / (self.omega * rho), d,
-                                   real, rho, bulk))
+                self.steps.append(("fluid", _FluidRows(
+                    np.ascontiguousarray(q.real), np.ascontiguousarray(q.imag), real,
+                    np.ascontiguousarray(1j * self.omega * rho * d, dtype=complex),
+                    np.ascontiguousarray(1j / (self.omega * rho), dtype=complex),
+                    np.ascontiguousarray(d, dtype=float)), rho, bulk))
                 self.mass.append(None)
             elif isinstance(el, SheetElement):
                 z = np.asarray(el.impedance)
@@ -249,7 +266,7 @@ class _Rows:
         for i, step in enumerate(self.steps):
             if step is None or step[0] != "fluid":
                 continue
-            rho, bulk, d = step[6], step[7], step[4]
+            rho, bulk, d = step[2], step[3], step[1].d
             lossy = ((np.abs(np.imag(rho)) > _LOW_LOSS * np.abs(np.real(rho)))
                      | (np.abs(np.imag(bulk)) > _LOW_LOSS * np.abs(np.real(bulk))))
             m1, m2 = self._side_mass(i, -1), self._side_mass(i, 1)
@@ -328,8 +345,7 @@ class _Rows:
             elif kind == "angle":
                 p += self._angle_impedance(step[1], rows, om, trace()) * v
             else:
-                p, v, y = _fluid(step, rows, kt2, p, v)
-                scale += y
+                kernels.fluid_back(*step[1], rows, kt2, p, v, scale)
         return p, v, y1, y2abs, scale, kt2, trace, om
 
     def den(self, rows, t, cmap):
@@ -386,8 +402,7 @@ class _Rows:
                 elif kind == "angle":
                     g2 = g2 + g1 * self._angle_impedance(step[1], rows, om, trace())
                 else:
-                    g1, g2, y = _fluid_forward(step, rows, kt2, g1, g2)
-                    scale += y
+                    kernels.fluid_forward(*step[1], rows, kt2, g1, g2, scale)
             layer = _rows_of(self.steps[sheet][1], rows)
             z0, z1, z2 = layer.azimuth_polynomial(om, trace(), self.air)
             alpha, beta = g1 * p + g2 * v, g1 * v
@@ -421,81 +436,6 @@ def _rows_of(obj, rows):
             object.__setattr__(new, f.name, _rows_of(getattr(obj, f.name), rows))
         return new
     return obj
-
-
-def _complex(re, im):
-    out = np.empty(re.shape, complex)
-    out.real, out.imag = re, im
-    return out
-
-
-def _fluid_entries(step, rows, kt2):
-    """Scaled matrix entries ``(cs, m12, m21, y)`` of a fluid layer at the points:
-    ``cs = cos(x) e^-y``, ``m12 = j omega rho d sinc(x) e^-y``, ``m21 = j kz sin(x) e^-y /
-    (omega rho)`` with ``x = kz d``, ``y = |Im x|``, in real arithmetic (``cos``, ``sin`` and
-    ``exp`` of reals; the root of ``kz^2`` by the half-angle formulas). The step's
-    prefactors are ``j omega rho d`` and ``j / (omega rho)`` per row."""
-    _, q, c12, c21, d, real = step[:6]
-    dd = d[rows][:, None]
-    if real:  # lossless fluid: kz is real (propagating) or imaginary (evanescent)
-        a = q[rows][:, None] - kt2
-        k = np.sqrt(np.abs(a))                      # |kz|
-        r = k * dd
-        prop = a >= 0
-        if prop.all():
-            cs, sr = np.cos(r), np.sin(r)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                sinc = sr / r
-            xs, y = k * sr, np.zeros(r.shape)       # kz sin(x)
-        else:
-            g = np.exp(-2.0 * np.where(prop, 0.0, r))
-            rr = np.where(prop, r, 0.0)
-            cr, sr = np.cos(rr), np.sin(rr)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                sinc = np.where(prop, sr / r, (1.0 - g) / (2.0 * r))
-            cs = np.where(prop, cr, (1.0 + g) / 2.0)
-            xs = np.where(prop, k * sr, -k * (1.0 - g) / 2.0)
-            y = np.where(prop, 0.0, r)
-        small = r < 1e-6
-        if small.any():
-            sinc = np.where(small, 1.0, sinc)
-        return cs, c12[rows][:, None] * sinc, c21[rows][:, None] * xs, y
-    a = q.real[rows][:, None] - kt2
-    b = q.imag[rows][:, None]
-    m = np.sqrt(0.5 * (np.sqrt(a * a + b * b) + np.abs(a)))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        t = np.abs(b) / (2.0 * m)
-    pos = a >= 0
-    # x = +-sqrt(kz^2) d with Im x >= 0 (cos and sinc are even: the decaying root)
-    kr = np.copysign(np.where(pos, m, t), b)        # kz, with Im kz >= 0
-    ky = np.where(pos, t, m)
-    xr, y = kr * dd, ky * dd
-    g = np.exp(-2.0 * y)
-    gp, gm = 0.5 + 0.5 * g, 0.5 - 0.5 * g
-    cr, sr = np.cos(xr), np.sin(xr)
-    sn_r, sn_i = gp * sr, gm * cr                       # sin(x) e^-y
-    cs = _complex(gp * cr, -gm * sr)                    # cos(x) e^-y
-    den = xr * xr + y * y
-    with np.errstate(divide="ignore", invalid="ignore"):
-        sinc = _complex((sn_r * xr + sn_i * y) / den, (sn_i * xr - sn_r * y) / den)
-    small = den < 1e-12
-    if small.any():
-        sinc = np.where(small, _complex(1.0 - (xr * xr - y * y) / 6.0, -xr * y / 3.0)
-                        * np.exp(-y), sinc)
-    ksn = _complex(kr * sn_r - ky * sn_i, kr * sn_i + ky * sn_r)   # kz sin(x) e^-y
-    return cs, c12[rows][:, None] * sinc, c21[rows][:, None] * ksn, y
-
-
-def _fluid(step, rows, kt2, p, v):
-    """``(P, V) <- M (P, V)`` through a fluid layer (scaled), and the scale's log."""
-    cs, m12, m21, y = _fluid_entries(step, rows, kt2)
-    return cs * p + m12 * v, m21 * p + cs * v, y
-
-
-def _fluid_forward(step, rows, kt2, g1, g2):
-    """``(G1, G2) <- (G1, G2) M`` through a fluid layer (scaled), and the scale's log."""
-    cs, m12, m21, y = _fluid_entries(step, rows, kt2)
-    return g1 * cs + g2 * m21, g1 * m12 + g2 * cs, y
 
 
 # ---- averages ------------------------------------------------------------------------

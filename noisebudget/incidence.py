@@ -580,25 +580,6 @@ def _separate(r1, r2):
     return out
 
 
-def _mean_quadratic(p0, p1, p2):
-    """The mean for ``p2 != 0`` over the two roots of p (see the caller)."""
-    sq = np.sqrt(p1 * p1 - 4.0 * p0 * p2)
-    np.negative(sq, out=sq, where=p1.real * sq.real + p1.imag * sq.imag < 0)
-    q = -0.5 * (p1 + sq)
-    q[q == 0] = 1e-300
-    r1, r2 = q / p2, p0 / q
-    e = r1 - r2
-    rough = 1e-12 * (1.0 + _abs2(r1) + _abs2(r2))
-    odd = (_abs2(e) < rough) | (r1.imag**2 < 1e-24 * rough) | (r2.imag**2 < 1e-24 * rough)
-    if odd.any():  # rare: (nearly) double roots, or roots on the real axis
-        r1[odd], r2[odd] = _separate(r1[odd], r2[odd])
-        e = r1 - r2
-    f = r1 - r2.conj()
-    mean = ((_arcsine_mean_pole(r1) / (e * f)).imag / r1.imag
-            + (_arcsine_mean_pole(r2) / (e * f.conj())).imag / r2.imag)
-    return mean / _abs2(p2)
-
-
 def azimuth_mean_inverse_square(p0, p1, p2) -> np.ndarray:
     """Closed-form azimuth mean ``(2 / pi) int_0^(pi/2) |p(cos^2 phi)|^-2 dphi``.
 
@@ -626,26 +607,14 @@ def azimuth_mean_inverse_square(p0, p1, p2) -> np.ndarray:
     drops where ``|p2|`` (then ``|p1|``) is below 1e-13 of the other coefficients:
     ``Im J(r) / (|p1|^2 Im r)`` for a line, ``1 / |p0|^2`` for a constant.
     """
+    from . import kernels
+
     p0, p1, p2 = np.broadcast_arrays(np.asarray(p0, complex), np.asarray(p1, complex),
                                      np.asarray(p2, complex))
     shape = p0.shape
-    p0, p1, p2 = p0.ravel(), p1.ravel(), p2.ravel()
-    scale = np.maximum(_abs2(p0), _abs2(p1))
-    quad = _abs2(p2) > 1e-26 * scale
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        if quad.all():
-            return _mean_quadratic(p0, p1, p2).reshape(shape)
-        out = np.empty(p0.shape)
-        out[quad] = _mean_quadratic(p0[quad], p1[quad], p2[quad])
-        lin = ~quad & (_abs2(p1) > 1e-26 * _abs2(p0))
-        const = ~quad & ~lin
-        out[const] = 1.0 / _abs2(p0[const])
-        if lin.any():
-            a1 = p1[lin]
-            r = -p0[lin] / a1
-            tiny = 1e-12 * (1.0 + np.abs(r))
-            r = np.where(np.abs(r.imag) < tiny, r.real + 1j * tiny, r)
-            out[lin] = _arcsine_mean_pole(r).imag / (_abs2(a1) * r.imag)
+    out = np.empty(p0.size)
+    kernels.mean_inverse_square(*(np.ascontiguousarray(p).reshape(-1) for p in (p0, p1, p2)),
+                                out)
     return out.reshape(shape)
 
 

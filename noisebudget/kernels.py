@@ -1,0 +1,175 @@
+"""Compiled per-point kernels of the angle integrands (numba, CPU only).
+
+The batched transmission (:mod:`noisebudget.batch`) evaluates, per (variant, frequency)
+row, tens to hundreds of angle points, and each point runs the same short chain of
+complex arithmetic: a fluid layer's scaled matrix entries applied to the carried state,
+and the closed-form azimuth mean. As numpy expressions each link of the chain is a pass
+over all points (20 to 50 passes per layer); here each chain is one loop over the points
+with the intermediates in registers. The formulas are those of the numpy forms they
+replace, documented where they are used (the module docstring of
+:mod:`noisebudget.batch`, :func:`noisebudget.incidence.azimuth_mean_inverse_square`);
+``tests/test_kernels.py`` checks them against independent references.
+
+Each point's value depends on its own inputs only, computed in a fixed order, so a row's
+numbers do not depend on the rows evaluated with it, bit for bit. Compiled with
+``cache=True`` (the first call in a fresh installation compiles, about a second per
+kernel; later processes load the cached machine code) and ``nogil=True`` (the budget's
+worker threads run them in parallel). ``fastmath`` stays off: IEEE arithmetic, no
+reassociation.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numba import njit
+
+__all__ = ["fluid_back", "fluid_forward", "mean_inverse_square"]
+
+_JIT = {"cache": True, "nogil": True, "fastmath": False, "error_model": "numpy"}
+
+
+@njit(**_JIT)
+def _entries(q_re, q_im, real, d, kt2):
+    """Scaled entries ``(cs, sinc, ksn, y)`` of a fluid layer at one point: ``cos(x) e^-y``,
+    ``sinc(x) e^-y``, ``kz sin(x) e^-y`` with ``x = kz d`` (Im x >= 0), ``y = |Im x|``.
+
+    ``cos`` and ``sin`` of a complex x from the real ``cos``, ``sin`` of ``Re x`` and
+    ``1 - exp(-2 y)`` (``expm1``: no cancellation where ``y`` is small); the root of
+    ``kz^2`` by the half-angle formulas."""
+    if real:  # lossless: kz real (propagating) or imaginary (evanescent)
+        a = q_re - kt2
+        k = np.sqrt(abs(a))
+        r = k * d
+        if a >= 0.0:
+            s = np.sin(r)
+            sinc = 1.0 if r < 1e-6 else s / r
+            return complex(np.cos(r), 0.0), complex(sinc, 0.0), complex(k * s, 0.0), 0.0
+        em = -np.expm1(-2.0 * r)  # 1 - exp(-2 r), without cancellation
+        sinc = 1.0 if r == 0.0 else em / (2.0 * r)
+        return (complex(1.0 - em / 2.0, 0.0), complex(sinc, 0.0),
+                complex(-k * em / 2.0, 0.0), r)
+    a = q_re - kt2
+    b = q_im
+    m = np.sqrt(0.5 * (np.sqrt(a * a + b * b) + abs(a)))
+    t = abs(b) / (2.0 * m) if m > 0.0 else 0.0
+    if a >= 0.0:
+        kr, ky = np.copysign(m, b), t
+    else:
+        kr, ky = np.copysign(t, b), m
+    xr, y = kr * d, ky * d
+    em = -np.expm1(-2.0 * y)
+    gp, gm = 1.0 - 0.5 * em, 0.5 * em
+    cr, sr = np.cos(xr), np.sin(xr)
+    sn_r, sn_i = gp * sr, gm * cr
+    cs = complex(gp * cr, -gm * sr)
+    den = xr * xr + y * y
+    if den < 1e-12:
+        sinc = complex(1.0 - (xr * xr - y * y) / 6.0, -xr * y / 3.0) * np.exp(-y)
+    else:
+        sinc = complex((sn_r * xr + sn_i * y) / den, (sn_i * xr - sn_r * y) / den)
+    ksn = complex(kr * sn_r - ky * sn_i, kr * sn_i + ky * sn_r)
+    return cs, sinc, ksn, y
+
+
+@njit(**_JIT)
+def fluid_back(q_re, q_im, real, c12, c21, d, rows, kt2, p, v, scale):
+    """``(P, V) <- M (P, V)`` through a fluid layer at every point, in place, and its
+    scale's log added to ``scale``.
+
+    ``q = omega^2 rho / K``, the prefactors ``c12 = j omega rho d``, ``c21 = j / (omega
+    rho)`` and the thickness ``d`` are per row of the layer (indexed by ``rows``); ``kt2``,
+    ``p``, ``v`` and ``scale`` are (len(rows), m). ``M = [[cs, c12 sinc], [c21 ksn, cs]]``
+    scaled by ``exp(-|Im kz d|)``.
+    """
+    n, m = kt2.shape
+    for i in range(n):
+        r = rows[i]
+        for j in range(m):
+            cs, sinc, ksn, y = _entries(q_re[r], q_im[r], real, d[r], kt2[i, j])
+            m12, m21 = c12[r] * sinc, c21[r] * ksn
+            pp, vv = p[i, j], v[i, j]
+            p[i, j] = cs * pp + m12 * vv
+            v[i, j] = m21 * pp + cs * vv
+            scale[i, j] += y
+
+
+@njit(**_JIT)
+def fluid_forward(q_re, q_im, real, c12, c21, d, rows, kt2, g1, g2, scale):
+    """``(G1, G2) <- (G1, G2) M`` through a fluid layer at every point, in place (the
+    row vector carried forward); arguments as :func:`fluid_back`."""
+    n, m = kt2.shape
+    for i in range(n):
+        r = rows[i]
+        for j in range(m):
+            cs, sinc, ksn, y = _entries(q_re[r], q_im[r], real, d[r], kt2[i, j])
+            m12, m21 = c12[r] * sinc, c21[r] * ksn
+            a, b = g1[i, j], g2[i, j]
+            g1[i, j] = a * cs + b * m21
+            g2[i, j] = a * m12 + b * cs
+            scale[i, j] += y
+
+
+@njit(**_JIT)
+def _abs2(z):
+    return z.real * z.real + z.imag * z.imag
+
+
+@njit(**_JIT)
+def _pole_mean(r):
+    """``J(r) = -1 / w``, ``w = +-sqrt(r (r - 1))`` with ``Re(w conj(r - 1/2)) >= 0``."""
+    w = np.sqrt(r * (r - 1.0))
+    mid = r - 0.5
+    if w.real * mid.real + w.imag * mid.imag < 0.0:
+        w = -w
+    return -1.0 / w
+
+
+@njit(**_JIT)
+def _off_axis(r):
+    """A root on the real axis moved off it by a relative 1e-12."""
+    tiny = 1e-12 * (1.0 + abs(r))
+    if abs(r.imag) < tiny:
+        return complex(r.real, tiny)
+    return r
+
+
+@njit(**_JIT)
+def _mean_one(p0, p1, p2):
+    """The mean of ``|p(x)|^-2`` at one point (see
+    :func:`noisebudget.incidence.azimuth_mean_inverse_square`)."""
+    scale = max(_abs2(p0), _abs2(p1))
+    if not _abs2(p2) > 1e-26 * scale:
+        if _abs2(p1) > 1e-26 * _abs2(p0):  # a line
+            r = _off_axis(-p0 / p1)
+            return _pole_mean(r).imag / (_abs2(p1) * r.imag)
+        return 1.0 / _abs2(p0)
+    sq = np.sqrt(p1 * p1 - 4.0 * p0 * p2)
+    if p1.real * sq.real + p1.imag * sq.imag < 0.0:
+        sq = -sq
+    q = -0.5 * (p1 + sq)
+    if q == 0:
+        q = complex(1e-300, 0.0)
+    r1, r2 = q / p2, p0 / q
+    e = r1 - r2
+    rough = 1e-12 * (1.0 + _abs2(r1) + _abs2(r2))
+    if (_abs2(e) < rough or r1.imag ** 2 < 1e-24 * rough
+            or r2.imag ** 2 < 1e-24 * rough):  # (nearly) double roots, or real ones
+        mid, gap = (r1 + r2) / 2.0, (r1 - r2) / 2.0
+        least = max(1e-6 * abs(mid - min(max(mid.real, 0.0), 1.0)),
+                    1e-14 * (1.0 + abs(mid)))
+        size = abs(gap)
+        if size < least:
+            gap = (gap / size if size > 0 else complex(1.0, 0.0)) * least
+        r1, r2 = _off_axis(mid + gap), _off_axis(mid - gap)
+        e = r1 - r2
+    f = r1 - r2.conjugate()
+    mean = ((_pole_mean(r1) / (e * f)).imag / r1.imag
+            + (_pole_mean(r2) / (e * f.conjugate())).imag / r2.imag)
+    return mean / _abs2(p2)
+
+
+@njit(**_JIT)
+def mean_inverse_square(p0, p1, p2, out):
+    """``out[i]`` = the azimuth mean of ``|p0 + p1 x + p2 x^2|^-2`` (1-D arrays)."""
+    for i in range(p0.size):
+        out[i] = _mean_one(p0[i], p1[i], p2[i])

@@ -1,0 +1,101 @@
+"""Compiled per-point kernels against the fluid layer's transfer matrix written out, and
+the azimuth mean against its value point by point."""
+
+import numpy as np
+import pytest
+
+from noisebudget import kernels
+from noisebudget.incidence import azimuth_mean_inverse_square
+
+
+def _reference_matrix(q, d, omega, rho, kt2):
+    """The fluid layer's 2 x 2 transfer matrix relating (p, v_n) on its two faces:
+    ``[[cos kz d, j omega rho sin(kz d) / kz], [j kz sin(kz d) / (omega rho), cos kz d]]``
+    with ``kz^2 = omega^2 rho / K - kt^2`` (Allard & Atalla, Propagation of Sound in
+    Porous Media, 2nd ed. 2009, eq. 11.17), in plain complex arithmetic."""
+    kz = np.sqrt(q - kt2 + 0j)
+    x = kz * d
+    with np.errstate(invalid="ignore", divide="ignore"):
+        sinc = np.where(np.abs(x) > 1e-8, np.sin(x) / np.where(x == 0, 1, x), 1.0)
+    return (np.cos(x), 1j * omega * rho * d * sinc, 1j * kz * np.sin(x) / (omega * rho),
+            np.cos(x))
+
+
+def _layer(real):
+    rng = np.random.default_rng(3 if real else 4)
+    n = 6
+    omega = 2 * np.pi * rng.uniform(50, 20000, n)
+    if real:  # air
+        rho, bulk = np.full(n, 1.2), np.full(n, 1.4e5)
+    else:  # a lossy equivalent fluid (complex density and bulk modulus)
+        rho = rng.uniform(1.3, 3.0, n) - 1j * rng.uniform(0.2, 4.0, n)
+        bulk = rng.uniform(1.0e5, 1.4e5, n) + 1j * rng.uniform(1e3, 2e4, n)
+    d = rng.uniform(0.002, 0.08, n)
+    q = omega**2 * rho / bulk + 0j
+    return omega, rho, d, q
+
+
+@pytest.mark.parametrize("real", [True, False])
+def test_fluid_kernels_equal_the_transfer_matrix(real):
+    omega, rho, d, q = _layer(real)
+    n, m = omega.size, 40
+    rows = np.arange(n)
+    # trace wavenumbers from normal incidence to past kz = 0 (evanescent), with points
+    # at and next to kz = 0 (the small-argument branches)
+    frac = np.concatenate([np.linspace(0.0, 3.0, m - 3), [1.0, 1.0 + 1e-13, 1.0 - 1e-9]])
+    kt2 = np.real(q)[:, None] * frac[None, :]
+    rng = np.random.default_rng(5)
+    p0 = rng.normal(size=(n, m)) + 1j * rng.normal(size=(n, m))
+    v0 = rng.normal(size=(n, m)) + 1j * rng.normal(size=(n, m))
+    args = (np.ascontiguousarray(q.real), np.ascontiguousarray(q.imag), real,
+            (1j * omega * rho * d).astype(complex), (1j / (omega * rho)).astype(complex),
+            d, rows)
+    a, b, c, e = _reference_matrix(q[:, None], d[:, None], omega[:, None], rho[:, None],
+                                   kt2)
+    p, v, scale = p0.copy(), v0.copy(), np.zeros((n, m))
+    kernels.fluid_back(*args, kt2, p, v, scale)
+    unscale = np.exp(scale)
+    ok = scale < 30  # where exp(|Im kz d|) does not swamp the plain product
+    assert np.all(scale >= 0)
+    ref_p, ref_v = a * p0 + b * v0, c * p0 + e * v0
+    size = np.abs(ref_p) + np.abs(ref_v) + np.abs(p0) + np.abs(v0)
+    assert np.max((np.abs(p * unscale - ref_p) / size)[ok]) < 1e-12
+    assert np.max((np.abs(v * unscale - ref_v) / size)[ok]) < 1e-12
+    g1, g2, scale = p0.copy(), v0.copy(), np.zeros((n, m))
+    kernels.fluid_forward(*args, kt2, g1, g2, scale)
+    ref_1, ref_2 = p0 * a + v0 * c, p0 * b + v0 * e
+    size = np.abs(ref_1) + np.abs(ref_2) + np.abs(p0) + np.abs(v0)
+    assert np.max((np.abs(g1 * np.exp(scale) - ref_1) / size)[ok]) < 1e-12
+    assert np.max((np.abs(g2 * np.exp(scale) - ref_2) / size)[ok]) < 1e-12
+
+
+def test_fluid_kernel_stays_finite_deep_in_the_evanescent_range():
+    # kz d = -j 2000: the unscaled entries overflow; the scaled ones are those of
+    # exp(-|Im kz d|) T, bounded, with the scale's log carried apart
+    omega, rho, d = np.array([2 * np.pi * 100.0]), np.array([1.2]), np.array([0.05])
+    q = omega**2 * rho / 1.4e5 + 0j
+    kt2 = np.array([[(2000 / 0.05) ** 2]])
+    p, v, scale = np.ones((1, 1), complex), np.ones((1, 1), complex), np.zeros((1, 1))
+    kernels.fluid_back(q.real.copy(), q.imag.copy(), True, 1j * omega * rho * d,
+                       1j / (omega * rho), d, np.array([0]), kt2, p, v, scale)
+    assert np.isfinite(p).all() and np.isfinite(v).all()
+    assert scale[0, 0] == pytest.approx(np.sqrt(kt2[0, 0] - q.real[0]) * d[0], rel=1e-12)
+
+
+def test_azimuth_mean_is_computed_point_by_point():
+    # each value equals the closed form evaluated on its own (no dependence on the other
+    # points of the call, bit for bit); the closed form itself is checked against
+    # scipy.integrate.quad in test_panel_physics.py
+    rng = np.random.default_rng(9)
+    p = [rng.normal(size=(7, 5)) + 1j * rng.normal(size=(7, 5)) for _ in range(3)]
+    p[2][0, :] = 0.0                  # lines
+    p[1][0, :2] = p[2][0, :2] = 0.0   # constants
+    together = azimuth_mean_inverse_square(*p)
+    assert together.shape == (7, 5)
+    for i in range(7):
+        for j in range(5):  # a loop over the points: each on its own
+            alone = azimuth_mean_inverse_square(p[0][i, j], p[1][i, j], p[2][i, j])
+            assert together[i, j] == alone
+    assert together[0, 0] == 1.0 / abs(p[0][0, 0]) ** 2
+    # broadcasting of scalar and array coefficients
+    assert azimuth_mean_inverse_square(1.0, 0.0, p[2][1]).shape == (5,)
