@@ -10,20 +10,21 @@ the variants cost one vectorised evaluation instead of a loop over stacks.
 
 Per row, once. The parts of the transfer matrices that depend on frequency only are built
 once per row and reused at every angle and every adaptive pass: a fluid layer's ``omega^2
-rho / K`` and its two matrix prefactors, and the impedance of each sheet that does not
-depend on the angle (a tile's Bessel functions, a septum's mass). Only plates and
-sandwich panels are re-evaluated at each angle.
+rho / K`` and its two matrix prefactors, the impedance of each sheet that does not depend
+on the angle (a tile's Bessel functions, a septum's mass), and the coefficients of each
+sheet that does as a series in ``s = kt^2`` (a plate's and a sandwich's ``kt_series``, a
+direction-dependent skin's ``azimuth_series``): the rows' *program*.
 
-Per point, the least arithmetic. The receiving half-space's state ``(1, Y2)`` is carried
-back through the layers as a vector, ``(P, V) <- M (P, V)`` (two complex numbers per point
-instead of a 2 x 2 product), and the denominator of the transmission coefficient is
-``den = Y1 P + V`` (the cascade's ``a Y1 + b Y1 Y2 + c + d Y2``). A fluid layer's entries
-use its scaled cosine and sine from the real ``cos``, ``sin`` and ``exp`` of the real and
-imaginary parts of ``kz d`` (``exp(-|Im kz d|)`` factored out and its logarithm
-accumulated, as :func:`noisebudget.stack.cascade` does). With one direction-dependent
-sheet, the layers in front of it carry the row vector ``(Y1, 1)`` forward and the layers
-behind it the vector ``(1, Y2)`` back, which gives the affine ``den = alpha + beta Z`` of
-the closed-form azimuth mean.
+Per point, one compiled pass (:func:`noisebudget.kernels.transmission`). The receiving
+half-space's state ``(1, Y2)`` is carried back through the layers as a vector, ``(P, V) <-
+M (P, V)`` (two complex numbers per point instead of a 2 x 2 product), and the denominator
+of the transmission coefficient is ``den = Y1 P + V`` (the cascade's ``a Y1 + b Y1 Y2 + c
++ d Y2``). A fluid layer's entries use its scaled cosine and sine from the real ``cos``,
+``sin`` and ``expm1`` of the real and imaginary parts of ``kz d`` (``exp(-|Im kz d|)``
+factored out and its logarithm accumulated, as :func:`noisebudget.stack.cascade` does).
+With one direction-dependent sheet, the layers in front of it carry the row vector ``(Y1,
+1)`` forward and the layers behind it the vector ``(1, Y2)`` back, which gives the affine
+``den = alpha + beta Z`` of the closed-form azimuth mean.
 
 Per row, adaptive. Angle integrals use :func:`noisebudget.incidence.paris_average_critical`
 (each row split at its own features: the layers' coincidences and, for nearly lossless
@@ -51,7 +52,6 @@ from .bands import Bands, band_average
 from .incidence import (
     INCIDENCE,
     CriticalMap,
-    azimuth_mean_inverse_square,
     paris_average_critical,
 )
 from .layers.base import FluidElement, SheetElement
@@ -232,6 +232,49 @@ class _Rows:
         if s.panel is not None:
             self.table = s.panel.radiation_table(self.omega / s.receiver_air.sound_speed,
                                                  self.k1 * np.sqrt(umax))
+        self.program = self._program()
+
+    def _program(self):
+        """The steps as :func:`noisebudget.kernels.transmission` takes them: kinds,
+        lossless flags, real and complex numbers per (layer, row), the direction-dependent
+        sheet's series per row and its index (-1: none)."""
+        n, nst = self.omega.size, len(self.steps)
+        kind = np.zeros(nst, dtype=np.int64)
+        real = np.zeros(nst, dtype=bool)
+        rpar = np.zeros((nst, n, 3))
+        cpar = np.zeros((nst, n, 4), dtype=complex)
+        az = np.zeros((n, 8), dtype=complex)
+        om = self.omega[:, None]
+
+        def per_row(x):
+            return np.broadcast_to(x, (n, 1))[:, 0]
+
+        for i, step in enumerate(self.steps):  # a loop over the layers
+            if step is None:
+                continue
+            if step[0] == "fluid":
+                fr = step[1]
+                kind[i], real[i] = kernels.FLUID, fr.real
+                rpar[i, :, 0], rpar[i, :, 1], rpar[i, :, 2] = fr.q_re, fr.q_im, fr.d
+                cpar[i, :, 0], cpar[i, :, 1] = fr.c12, fr.c21
+            elif step[0] == "sheet":
+                kind[i] = kernels.SHEET
+                cpar[i, :, 0] = step[1]
+            elif step[0] == "angle":
+                if not hasattr(step[1], "kt_series"):
+                    raise TypeError(f"{type(step[1]).__name__}: an angle-dependent sheet "
+                                    "needs kt_series to be batched")
+                *coef, f = step[1].kt_series(om)
+                kind[i] = kernels.SERIES
+                for k, c in enumerate(coef):  # the four complex coefficients
+                    cpar[i, :, k] = per_row(c)
+                rpar[i, :, 0] = per_row(f)
+            else:
+                kind[i] = kernels.AZIMUTH
+                for k, c in enumerate(step[1].azimuth_series(om)):  # eight coefficients
+                    az[:, k] = per_row(c)
+        sheet = -1 if self.batch.sheet is None else self.batch.sheet
+        return kind, real, rpar, cpar, az, sheet
 
     # features in u = sin^2 theta, NaN where absent ---------------------------------------
 
@@ -385,35 +428,16 @@ class _Rows:
         return out.reshape(n, k)
 
     def _tau(self, rows, u, q):
-        p, v, y1, y2abs, scale, kt2, trace, om = self._state(rows, u, q)
-        sheet = self.batch.sheet
-        if sheet is None:
-            den = y1 * p + v
-            mean = 1.0 / (den.real**2 + den.imag**2)
+        kind, real, rpar, cpar, az, sheet = self.program
+        if self.table is None:
+            sigma = np.empty((0, 0))
         else:
-            g1, g2 = y1 + 0j, np.ones(u.shape, complex)
-            for i in range(sheet):  # the layers in front of the sheet carry (Y1, 1) forward
-                step = self.steps[i]
-                if step is None:
-                    continue
-                kind = step[0]
-                if kind == "sheet":
-                    g2 = g2 + g1 * step[1][rows][:, None]
-                elif kind == "angle":
-                    g2 = g2 + g1 * self._angle_impedance(step[1], rows, om, trace())
-                else:
-                    kernels.fluid_forward(*step[1], rows, kt2, g1, g2, scale)
-            layer = _rows_of(self.steps[sheet][1], rows)
-            z0, z1, z2 = layer.azimuth_polynomial(om, trace(), self.air)
-            alpha, beta = g1 * p + g2 * v, g1 * v
-            mean = azimuth_mean_inverse_square(alpha + beta * z0, beta * z1, beta * z2)
-        if self.table is None:  # Re Y2, or rho2 c2 |Y2|^2 sigma for a bay
-            radiated = np.where(q >= 0, y2abs, 0.0)
-        else:
-            radiated = self.z2 * y2abs * y2abs * self.table(rows, trace())
-        with np.errstate(under="ignore"):
-            tau = 4.0 * y1 * radiated * mean * np.exp(-2.0 * scale)
-        return tau if sheet is None else np.minimum(tau, 1.0)
+            k1 = self.k1[rows][:, None]
+            sigma = self.table(rows, np.sqrt(k1 * k1 * u))
+        out = np.empty(u.shape)
+        kernels.transmission(kind, real, rpar, cpar, az, sheet, self.k1, self.omega,
+                             self.z1, self.rho2, self.z2, rows, u, q, sigma, out)
+        return out
 
     def _angle_impedance(self, layer, rows, om, kt):
         return layer_impedance(_rows_of(layer, rows), om, kt, self.air)

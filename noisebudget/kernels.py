@@ -23,7 +23,8 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-__all__ = ["fluid_back", "fluid_forward", "mean_inverse_square"]
+__all__ = ["AZIMUTH", "FLUID", "SERIES", "SHEET", "SKIP", "fluid_back", "mean_inverse_square",
+           "transmission"]
 
 _JIT = {"cache": True, "nogil": True, "fastmath": False, "error_model": "numpy"}
 
@@ -94,34 +95,27 @@ def fluid_back(q_re, q_im, real, c12, c21, d, rows, kt2, p, v, scale):
 
 
 @njit(**_JIT)
-def fluid_forward(q_re, q_im, real, c12, c21, d, rows, kt2, g1, g2, scale):
-    """``(G1, G2) <- (G1, G2) M`` through a fluid layer at every point, in place (the
-    row vector carried forward); arguments as :func:`fluid_back`."""
-    n, m = kt2.shape
-    for i in range(n):
-        r = rows[i]
-        for j in range(m):
-            cs, sinc, ksn, y = _entries(q_re[r], q_im[r], real, d[r], kt2[i, j])
-            m12, m21 = c12[r] * sinc, c21[r] * ksn
-            a, b = g1[i, j], g2[i, j]
-            g1[i, j] = a * cs + b * m21
-            g2[i, j] = a * m12 + b * cs
-            scale[i, j] += y
-
-
-@njit(**_JIT)
 def _abs2(z):
     return z.real * z.real + z.imag * z.imag
 
 
 @njit(**_JIT)
-def _pole_mean(r):
-    """``J(r) = -1 / w``, ``w = +-sqrt(r (r - 1))`` with ``Re(w conj(r - 1/2)) >= 0``."""
+def _pole_root(r):
+    """``w = +-sqrt(r (r - 1))`` with ``Re(w conj(r - 1/2)) >= 0``: the pole mean is
+    ``J(r) = -1 / w``."""
     w = np.sqrt(r * (r - 1.0))
     mid = r - 0.5
     if w.real * mid.real + w.imag * mid.imag < 0.0:
         w = -w
-    return -1.0 / w
+    return w
+
+
+@njit(**_JIT)
+def _pole_term(r, c):
+    """``Im(J(r) / c) / Im r`` with ``J(r) = -1 / w``: ``Im(-1 / z) = Im z / |z|^2`` for
+    ``z = w c`` (no complex division)."""
+    z = _pole_root(r) * c
+    return z.imag / (z.real * z.real + z.imag * z.imag) / r.imag
 
 
 @njit(**_JIT)
@@ -141,7 +135,7 @@ def _mean_one(p0, p1, p2):
     if not _abs2(p2) > 1e-26 * scale:
         if _abs2(p1) > 1e-26 * _abs2(p0):  # a line
             r = _off_axis(-p0 / p1)
-            return _pole_mean(r).imag / (_abs2(p1) * r.imag)
+            return _pole_term(r, complex(1.0, 0.0)) / _abs2(p1)
         return 1.0 / _abs2(p0)
     sq = np.sqrt(p1 * p1 - 4.0 * p0 * p2)
     if p1.real * sq.real + p1.imag * sq.imag < 0.0:
@@ -163,9 +157,7 @@ def _mean_one(p0, p1, p2):
         r1, r2 = _off_axis(mid + gap), _off_axis(mid - gap)
         e = r1 - r2
     f = r1 - r2.conjugate()
-    mean = ((_pole_mean(r1) / (e * f)).imag / r1.imag
-            + (_pole_mean(r2) / (e * f.conjugate())).imag / r2.imag)
-    return mean / _abs2(p2)
+    return (_pole_term(r1, e * f) + _pole_term(r2, e * f.conjugate())) / _abs2(p2)
 
 
 @njit(**_JIT)
@@ -173,3 +165,104 @@ def mean_inverse_square(p0, p1, p2, out):
     """``out[i]`` = the azimuth mean of ``|p0 + p1 x + p2 x^2|^-2`` (1-D arrays)."""
     for i in range(p0.size):
         out[i] = _mean_one(p0[i], p1[i], p2[i])
+
+
+# ---- the whole integrand of a batch ---------------------------------------------------
+
+#: Step kinds of :func:`transmission`'s program, one per mounted layer.
+SKIP, FLUID, SHEET, SERIES, AZIMUTH = 0, 1, 2, 3, 4
+
+
+@njit(**_JIT)
+def _series(c, f, s):
+    """``A + B s + C s^2 + E s^2 / (1 + F s)`` (a sheet's impedance in ``s = kt^2``)."""
+    return c[0] + s * (c[1] + s * c[2]) + c[3] * (s * s) / (1.0 + f * s)
+
+
+@njit(**_JIT)
+def transmission(kind, real, rpar, cpar, az, sheet, k1, omega, z1, rho2, z2, rows, u, q,
+                 sigma, out):
+    """tau at every point of a batch's rows, in one pass (the arithmetic of
+    :meth:`noisebudget.batch._Rows.tau`).
+
+    The program has one step per mounted layer, front to back: ``kind[i]`` (``SKIP``,
+    ``FLUID``, ``SHEET``: an impedance per row in ``cpar[i, r, 0]``, ``SERIES``: an
+    impedance ``A + B s + C s^2 + E s^2 / (1 + F s)`` in ``s = kt^2`` with ``(A, B, C, E)
+    = cpar[i, r]`` and ``F = rpar[i, r, 0]``, ``AZIMUTH``: the direction-dependent sheet
+    at index ``sheet``), fluid layers' ``(q_re, q_im, d) = rpar[i, r]``, ``(c12, c21) =
+    cpar[i, r, :2]`` and ``real[i]``. The sheet's ``Z = z0 + z1 x + z2 x^2`` (``x =
+    cos^2 phi``) has ``z0 = a00 + a01 s + a02 s^2``, ``z1 = a11 s + a12 s^2``, ``z2 = a22
+    s^2 + a20`` (``s > 0``), and at normal incidence ``z0 + b`` with ``az[r] = (a00, a01,
+    a02, a11, a12, a20, a22, b)``. ``k1``, ``omega`` are per row; ``z1``, ``rho2``,
+    ``z2`` the source impedance, the receiving air's density and impedance; ``sigma``
+    the bay's radiation efficiency per point, or an empty (0, 0) array for the infinite
+    stack. ``u = sin^2 theta`` and ``q = u_critical - u`` are (len(rows), m).
+
+    The receiving state ``(P, V) = (1, Y2)`` is carried back to the front (or to the
+    sheet, with the row vector ``(Y1, 1)`` carried forward to it); ``tau = 4 Y1 Re(Y2)
+    |Y1 P + V|^-2`` scaled by the fluid layers' ``exp(-2 |Im kz d|)``, or with the sheet
+    its azimuth mean (:func:`mean_inverse_square`), and for a bay ``rho2 c2 |Y2|^2
+    sigma`` in place of ``Re Y2``; with a sheet held at 1 at most.
+    """
+    n, m = u.shape
+    nst = kind.size
+    stop = sheet if sheet >= 0 else -1
+    bay = sigma.shape[0] > 0
+    for i in range(n):
+        r = rows[i]
+        kk, om = k1[r], omega[r]
+        for j in range(m):
+            uu, qq = u[i, j], q[i, j]
+            kt2 = kk * kk * uu
+            y1 = np.sqrt(1.0 - uu) / z1
+            y2abs = kk * np.sqrt(abs(qq)) / (om * rho2)
+            p = complex(1.0, 0.0)
+            v = complex(y2abs, 0.0) if qq >= 0.0 else complex(0.0, -y2abs)
+            scale = 0.0
+            for s in range(nst - 1, stop, -1):  # back to the front (or the sheet)
+                k = kind[s]
+                if k == FLUID:
+                    cs, sinc, ksn, y = _entries(rpar[s, r, 0], rpar[s, r, 1], real[s],
+                                                rpar[s, r, 2], kt2)
+                    m12, m21 = cpar[s, r, 0] * sinc, cpar[s, r, 1] * ksn
+                    p, v = cs * p + m12 * v, m21 * p + cs * v
+                    scale += y
+                elif k == SHEET:
+                    p += cpar[s, r, 0] * v
+                elif k == SERIES:
+                    p += _series(cpar[s, r], rpar[s, r, 0], kt2) * v
+            if sheet < 0:
+                den = y1 * p + v
+                mean = 1.0 / _abs2(den)
+            else:
+                g1, g2 = complex(y1, 0.0), complex(1.0, 0.0)
+                for s in range(sheet):  # the row vector forward to the sheet
+                    k = kind[s]
+                    if k == FLUID:
+                        cs, sinc, ksn, y = _entries(rpar[s, r, 0], rpar[s, r, 1], real[s],
+                                                    rpar[s, r, 2], kt2)
+                        m12, m21 = cpar[s, r, 0] * sinc, cpar[s, r, 1] * ksn
+                        g1, g2 = g1 * cs + g2 * m21, g1 * m12 + g2 * cs
+                        scale += y
+                    elif k == SHEET:
+                        g2 += g1 * cpar[s, r, 0]
+                    elif k == SERIES:
+                        g2 += g1 * _series(cpar[s, r], rpar[s, r, 0], kt2)
+                a = az[r]
+                z0 = a[0] + kt2 * (a[1] + kt2 * a[2])
+                zz1 = kt2 * (a[3] + kt2 * a[4])
+                zz2 = a[6] * (kt2 * kt2)
+                if kt2 == 0.0:
+                    z0 += a[7]
+                else:
+                    zz2 += a[5]
+                alpha, beta = g1 * p + g2 * v, g1 * v
+                mean = _mean_one(alpha + beta * z0, beta * zz1, beta * zz2)
+            if bay:
+                radiated = z2 * y2abs * y2abs * sigma[i, j]
+            else:
+                radiated = y2abs if qq >= 0.0 else 0.0
+            tau = 4.0 * y1 * radiated * mean * np.exp(-2.0 * scale)
+            if sheet >= 0 and tau > 1.0:
+                tau = 1.0
+            out[i, j] = tau

@@ -20,6 +20,14 @@ from .base import Field, Layer, LayerValueError, SheetElement, require
 __all__ = ["Plate", "Sandwich", "Septum"]
 
 
+def series_impedance(series, kt):
+    """A sheet's impedance ``A + B s + C s^2 + E s^2 / (1 + F s)``, ``s = kt^2``, from
+    ``series = (A, B, C, E, F)`` (a layer's ``kt_series``)."""
+    a, b, c, e, f = series
+    s = kt * kt
+    return a + s * (b + s * c) + e * (s * s) / (1.0 + f * s)
+
+
 @dataclass(frozen=True)
 class Septum(Layer):
     """Limp mass sheet (barrier vinyl, loaded film, foil).
@@ -278,40 +286,63 @@ class Plate(Layer):
         n = max(float(delta_p), 0.0) * self.curvature_radius
         return replace(self, in_plane_tension=(n / 2, n))
 
-    def azimuth_polynomial(self, omega, kt, air):
-        """Coefficients ``(z0, z1, z2)`` of ``Z = z0 + z1 x + z2 x^2``, ``x = cos^2 phi``.
+    def azimuth_series(self, omega):
+        """Coefficients of :meth:`azimuth_polynomial` in ``s = kt^2`` per frequency.
 
-        Shapes broadcast from ``omega`` and ``kt``; used by the stack's closed-form
-        azimuth average (:func:`noisebudget.incidence.azimuth_mean_inverse_square`).
+        ``z0 = a00 + a01 s + a02 s^2``, ``z1 = a11 s + a12 s^2``, ``z2 = a22 s^2 + a20``
+        for ``s > 0``, and at normal incidence (``s = 0``) ``z0 + b`` (the breathing mode,
+        whatever the azimuth) with ``z2 = 0``: returns ``(a00, a01, a02, a11, a12, a20,
+        a22, b)``, each broadcast from ``omega`` and the plate's numbers. With ``D_a``,
+        ``D_h`` the axial and hoop stiffnesses (loss ``1 + j eta``), ``N_a``, ``N_h`` the
+        tensions, ``m`` the surface density and ``E h / R^2`` the Donnell hoop stiffness
+        (Koval 1976; see the class docstring), all over ``j omega`` but ``a00 = j omega m``.
         """
         loss = 1.0 + 1j * self.loss_factor
         da, dh = self.stiffnesses
         na, nh = self.tensions
         inv = 1.0 / (1j * omega)
-        kt2 = kt * kt
-        kt4 = kt2 * kt2
         root_a, root_h = np.sqrt(da), np.sqrt(dh)
-        z0 = (loss * dh * kt4 + nh * kt2) * inv + self.surface_density / inv
-        z1 = (loss * 2 * root_h * (root_a - root_h) * kt4 + (na - nh) * kt2) * inv
-        stiff = loss * (root_a - root_h) ** 2 * kt4
+        zero = 0.0 * inv
         if np.any(np.isfinite(self.curvature_radius)):
-            donnell = loss * self.youngs_modulus * self.plate_thickness / self.curvature_radius**2
-            normal = kt == 0
-            if normal.any():  # normal incidence: the breathing mode, whatever the azimuth
-                z0 = z0 + np.where(normal, loss * self._breathing_stiffness() * inv, 0.0)
-                stiff = stiff + np.where(normal, 0.0, donnell)
-            else:
-                stiff = stiff + donnell
-        return z0, z1, stiff * inv
+            donnell = (loss * self.youngs_modulus * self.plate_thickness
+                       / self.curvature_radius**2) * inv
+            breathing = loss * self._breathing_stiffness() * inv
+        else:
+            donnell = breathing = zero
+        return (self.surface_density / inv, nh * inv, loss * dh * inv, (na - nh) * inv,
+                loss * 2 * root_h * (root_a - root_h) * inv, donnell,
+                loss * (root_a - root_h) ** 2 * inv, breathing)
+
+    def azimuth_polynomial(self, omega, kt, air):
+        """Coefficients ``(z0, z1, z2)`` of ``Z = z0 + z1 x + z2 x^2``, ``x = cos^2 phi``.
+
+        Shapes broadcast from ``omega`` and ``kt``; used by the stack's closed-form
+        azimuth average (:func:`noisebudget.incidence.azimuth_mean_inverse_square`);
+        the series in ``kt^2`` of :meth:`azimuth_series` evaluated.
+        """
+        a00, a01, a02, a11, a12, a20, a22, b = self.azimuth_series(omega)
+        s = kt * kt
+        z0 = a00 + s * (a01 + s * a02)
+        z1 = s * (a11 + s * a12)
+        z2 = a22 * (s * s)
+        normal = s == 0
+        if np.any(normal):  # normal incidence: the breathing mode, whatever the azimuth
+            return z0 + np.where(normal, b, 0.0), z1, z2 + np.where(normal, 0.0, a20)
+        return z0, z1, z2 + a20
+
+    def kt_series(self, omega):
+        """``(A, B, C, E, F)`` of the isotropic plate's impedance ``A + B s + C s^2 + E s^2
+        / (1 + F s)`` in ``s = kt^2``: ``j omega m``, ``N / (j omega)``, ``D (1 + j eta) /
+        (j omega)``, 0, 0 (thin-plate bending with in-plane tension N; Cremer, Heckl &
+        Petersson, Structure-Borne Sound, 2005, ch. 3)."""
+        inv = 1.0 / (1j * omega)
+        zero = 0.0 * inv
+        return (1j * omega * self.surface_density, self.tensions[0] * inv,
+                self.bending_stiffness * (1.0 + 1j * self.loss_factor) * inv, zero, zero.real)
 
     def element(self, omega, kt, air, azimuth=None):
         if self.isotropic:
-            d = self.bending_stiffness * (1.0 + 1j * self.loss_factor)
-            z = 1j * omega * self.surface_density + d * kt**4 / (1j * omega)
-            n = self.tensions[0]
-            if np.any(n):
-                z = z + n * kt**2 / (1j * omega)
-            return SheetElement(z)
+            return SheetElement(series_impedance(self.kt_series(omega), kt))
         x = np.cos(0.0 if azimuth is None else azimuth) ** 2
         z0, z1, z2 = self.azimuth_polynomial(omega, kt, air)
         return SheetElement(z0 + x * (z1 + x * z2))
@@ -515,9 +546,18 @@ class Sandwich(Layer):
         d0, s = self.sandwich_stiffness, self.shear_stiffness
         return 2 * self.face_stiffness + d0 * s / (s + d0 * kt * kt)
 
+    def kt_series(self, omega):
+        """``(A, B, C, E, F)`` of the impedance ``A + B s + C s^2 + E s^2 / (1 + F s)`` in
+        ``s = kt^2``: with ``D(kt) kt^4 = 2 D_1 s^2 + D_0 s^2 / (1 + (D_0 / S) s)``,
+        ``A = j omega m``, ``B = 0``, ``C = 2 D_1 (1 + j eta) / (j omega)``, ``E = D_0 (1 +
+        j eta) / (j omega)``, ``F = D_0 / S``."""
+        loss = (1.0 + 1j * self.loss_factor) / (1j * omega)
+        d0 = self.sandwich_stiffness
+        return (1j * omega * self.areal_mass, 0.0 * loss, 2 * self.face_stiffness * loss,
+                d0 * loss, d0 / self.shear_stiffness + 0.0 * omega)
+
     def element(self, omega, kt, air):
-        d = self.bending_stiffness(kt) * (1.0 + 1j * self.loss_factor)
-        return SheetElement(1j * omega * self.areal_mass + d * kt**4 / (1j * omega))
+        return SheetElement(series_impedance(self.kt_series(omega), kt))
 
     def trace_resonances(self, omega):
         """Free wavenumber ``kB`` of ``D(kB) kB^4 = m omega^2``, (nf, 1).
