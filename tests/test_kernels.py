@@ -116,3 +116,18 @@ def test_sheet_series_equal_the_impedances_written_out():
     ref = 1j * w * s.areal_mass + dk * (1 + 0.02j) * kt**4 / (1j * w)
     z = s.element(w, kt, None).impedance
     assert np.max(np.abs(z - ref) / np.abs(ref)) < 1e-14
+
+
+def test_complex_square_root_is_the_principal_branch():
+    # against numpy's principal square root (C99 csqrt), over magnitudes 1e-300 .. 1e300,
+    # every quadrant, the axes and signed zeros
+    rng = np.random.default_rng(2)
+    mag = 10.0 ** rng.uniform(-300, 300, 4000)
+    z = mag * np.exp(1j * rng.uniform(-np.pi, np.pi, 4000))
+    z = np.concatenate([z, [-1 + 0j, complex(-1, -0.0), 4 + 0j, 2j, -2j, 0j,
+                            complex(-1e-200, 1e-320), complex(1e300, -1e300)]])
+    got = np.array([kernels._csqrt(x) for x in z])  # a loop over test values
+    ref = np.sqrt(z)
+    scale = np.where(ref == 0, 1.0, np.abs(ref))
+    assert np.max(np.abs(got - ref) / scale) < 4e-16
+    assert kernels._csqrt(complex(-1, -0.0)) == -1j
