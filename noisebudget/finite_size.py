@@ -166,7 +166,7 @@ class Panel:
         return k / (2 * np.pi * self.area) * val.reshape(k.shape)
 
     def radiation_table(self, k, kt_max) -> RadiationTable:
-        """Chebyshev tables of ``sigma(k, kt)`` on ``0 <= kt <= kt_max`` per frequency.
+        """Piecewise Chebyshev tables of ``sigma(k, kt)`` on ``0 <= kt <= kt_max`` per frequency.
 
         Parameters
         ----------
@@ -234,7 +234,8 @@ class RadiationTable:
 
         kt = np.require(kt, float, ["C", "W"])   # one compiled signature: writeable, C
         rows = np.asarray(rows)
-        lead = np.broadcast_to(rows, kt.shape[:rows.ndim]).astype(np.int64).reshape(-1)
+        lead = np.broadcast_to(rows, kt.shape[:rows.ndim]).reshape(-1)
+        lead = np.arange(self.pieces.size, dtype=np.int64)[lead]  # numpy's index rules
         out = np.empty(kt.shape)
         if out.size == 0:
             return out
