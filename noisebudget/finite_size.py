@@ -46,8 +46,10 @@ __all__ = ["MAX_BAY_SIDE_M", "Panel", "RadiationTable", "window_angular_integral
 MAX_BAY_SIDE_M = 10.0
 
 _GL_CACHE: dict[int, tuple[np.ndarray, np.ndarray]] = {}
-_ROWS: OrderedDict = OrderedDict()  # (width, height, k, kt_max) -> (degree, coefficients)
-_ROWS_SIZE = 8192                   # remembered table rows (up to ~200 numbers each)
+_ROWS: OrderedDict = OrderedDict()  # (width, height, k, kt_max) -> (pieces, coefficients)
+_ROWS_SIZE = 8192                   # remembered table rows, at most ...
+_ROWS_FLOATS = 2**23                # ... and numbers in them (64 MB)
+_ROWS_KEPT = [0]                    # numbers in the remembered rows
 _ROWS_LOCK = threading.Lock()
 _CHUNK_POINTS = 2**22               # (row, Chebyshev point, radial node) values per block
 
@@ -164,7 +166,7 @@ class Panel:
         return k / (2 * np.pi * self.area) * val.reshape(k.shape)
 
     def radiation_table(self, k, kt_max) -> RadiationTable:
-        """Chebyshev tables of ``sigma(k, kt)`` on ``0 <= kt <= kt_max`` per frequency.
+        """Piecewise Chebyshev tables of ``sigma(k, kt)`` on ``0 <= kt <= kt_max`` per frequency.
 
         Parameters
         ----------
@@ -175,73 +177,156 @@ class Panel:
 
 
 class RadiationTable:
-    """``sigma(k, kt)`` of a :class:`Panel` as Chebyshev series in ``y = 2 (kt/kt_max)^2 - 1``.
+    """``sigma(k, kt)`` of a :class:`Panel` per frequency, as short Chebyshev series on
+    equal pieces of ``0 <= kt <= kt_max``.
 
-    ``sigma`` is an even entire function of kt of exponential type D (it is a finite
-    integral of ``J0(kt r)``, r <= D), so a series in ``kt^2`` of degree
-    ``0.5 kt_max D + 12`` reaches about 1e-7 (found by trial against direct evaluation;
-    the radial quadrature itself is good to about 1e-6, far below the angle
-    integration's tolerance). Frequencies are grouped by
-    the degree they need (a loop over a few groups, not over frequencies); coefficients
-    from values at Chebyshev points (discrete cosine transform).
+    ``sigma`` is an even entire function of kt of exponential type D (a finite integral of
+    ``J0(kt r)``, r <= D): it varies on a scale ``1/D`` in kt, alike over the whole range,
+    and its steep rise at ``kt ~ k`` (the trace wave's coincidence with the radiated
+    air's wavenumber) is no steeper than that. So equal pieces in kt suit it everywhere.
+    A row is built in two steps:
 
-    A row's coefficients depend on its own ``(k, kt_max)`` only (its own radial nodes,
-    sums in a fixed order), so they are computed once per distinct pair and bay and
-    remembered (:func:`_table_rows`): the variants of a trade study share their
-    frequencies, and a row does not depend, bit for bit, on the rows built with it.
+    1. a Chebyshev series in ``y = 2 (kt/kt_max)^2 - 1`` (even in kt) of degree
+       ``0.5 kt_max D + 12``, from sigma at as many Chebyshev points (discrete cosine
+       transform): within about 1e-13 of the row's largest sigma against the same radial
+       quadrature;
+    2. its values at the 13 Chebyshev points of each of ``P = ceil((2 degree - 24) / 7)``
+       equal pieces of ``[0, kt_max]`` (``kt D <= 7`` across a piece), turned into a
+       series of degree 12 in the piece's own variable.
+
+    The table is within about 1e-10 of the row's largest sigma of the direct radial
+    integral on the same nodes (found by trial on bays of 0.3 m x 0.5 m to 10 m x 10 m,
+    50 Hz to 20 kHz; the radial quadrature itself is good to about 1e-6, far below the
+    angle integration's tolerance). A row keeps ``13 P`` numbers, about ``1.9 kt_max D``
+    (650 for the 1.0 m x 1.4 m bay at 10 kHz), for the same samples of the radial
+    integrand as one series of the full degree. A point costs the look-up of its piece
+    and a Clenshaw sum of 13 terms whatever the frequency
+    (:func:`noisebudget.chebyshev_kernels.piecewise_chebyshev_sums`, compiled).
+
+    A row's numbers depend on its own ``(k, kt_max)`` only (its own radial nodes, sums in
+    a fixed order), so they are computed once per distinct pair and bay and remembered
+    (:func:`_table_rows`): the variants of a trade study share their frequencies, and a
+    row does not depend, bit for bit, on the rows built with it. A point's value does not
+    depend on the other points of the call.
     """
 
     def __init__(self, panel: Panel, k, kt_max):
+        from .chebyshev_kernels import PIECE_TERMS
+
         k = np.asarray(k, dtype=float)
-        self.kt_max = np.maximum(np.asarray(kt_max, dtype=float), 1e-12)
-        pairs = np.stack([np.broadcast_to(k, self.kt_max.shape), self.kt_max], axis=-1)
+        kt_max = np.maximum(np.asarray(kt_max, dtype=float), 1e-12)
+        pairs = np.stack([np.broadcast_to(k, kt_max.shape), kt_max], axis=-1)
+        self.kt_max = kt_max.reshape(-1)
         uniq, back = np.unique(pairs.reshape(-1, 2), axis=0, return_inverse=True)
-        degree, coef = _table_rows(panel, uniq[:, 0], uniq[:, 1])
+        pieces, coef = _table_rows(panel, uniq[:, 0], uniq[:, 1])
+        start = np.concatenate([[0], np.cumsum(pieces[:-1] * PIECE_TERMS)])
         back = back.reshape(-1)
-        self.degree = degree[back]
-        self.coef = coef[back]
+        self.pieces = pieces[back]                  # pieces per row
+        self.scale = self.pieces / self.kt_max      # pieces per unit kt
+        self.start = start[back]                    # first coefficient of each row
+        self.coef = coef                            # every distinct row's pieces, flat
 
     def __call__(self, rows, kt) -> np.ndarray:
         """``sigma`` at the frequencies ``rows`` (index array) and trace wavenumbers
-        ``kt`` (len(rows), m) by Clenshaw's recurrence."""
+        ``kt`` (len(rows), ...): ``|kt|`` beyond ``kt_max`` takes the value at
+        ``kt_max``."""
+        from .chebyshev_kernels import piecewise_chebyshev_sums
+
+        kt = np.require(kt, float, ["C", "W"])   # one compiled signature: writeable, C
         rows = np.asarray(rows)
-        kt = np.asarray(kt, dtype=float)
-        y = np.clip(2 * (kt / self.kt_max[rows, None]) ** 2 - 1, -1.0, 1.0)
-        coef = self.coef[rows]
+        lead = np.broadcast_to(rows, kt.shape[:rows.ndim]).reshape(-1)
+        lead = np.arange(self.pieces.size, dtype=np.int64)[lead]  # numpy's index rules
         out = np.empty(kt.shape)
-        # rows in classes of degree up to a power of two, each class's series run to its
-        # largest degree: a row's coefficients past its own degree are zero, which keeps
-        # its b_n exactly zero until its own degree (the same numbers, bit for bit, as a
-        # run to its own degree; a few classes instead of a group per degree)
-        degree = self.degree[rows]
-        size = 2 ** np.ceil(np.log2(np.maximum(degree, 16))).astype(int)
-        for cls in np.unique(size):  # loop over a few degree classes
-            sel = size == cls
-            deg = int(degree[sel].max())
-            yy, cc = y[sel], coef[sel]
-            y2 = 2 * yy
-            b1 = np.zeros_like(yy)
-            b2 = np.zeros_like(yy)
-            tmp = np.empty_like(yy)
-            for n in range(deg - 1, 0, -1):  # Clenshaw over series terms, in place:
-                np.multiply(y2, b1, out=tmp)  # b_n = c_n + 2 y b_(n+1) - b_(n+2)
-                np.add(cc[:, n:n + 1], tmp, out=tmp)
-                tmp -= b2
-                b2, b1, tmp = b1, tmp, b2
-            out[sel] = cc[:, :1] + yy * b1 - b2
+        if out.size == 0:
+            return out
+        piecewise_chebyshev_sums(lead, kt.reshape(lead.size, -1), self.kt_max, self.scale,
+                                 self.pieces, self.start, self.coef,
+                                 out.reshape(lead.size, -1))
         return out
 
 
+_PIECE_SPAN = 7.0                   # kt D across one piece (at most)
+
+
+def _piece_count(degree):
+    """Pieces of a row whose global series has ``degree`` terms: ``kt_max D / P <=
+    _PIECE_SPAN`` (the degree is at least ``0.5 kt_max D + 12``)."""
+    return np.maximum(1, np.ceil((2.0 * degree - 24) / _PIECE_SPAN)).astype(int)
+
+
+def _global_values(panel, k, kt_max, m, counts):
+    """``sigma`` at the m Chebyshev points in ``y`` of rows ``(k, kt_max)`` (arrays), on
+    the radial nodes of ``counts``: (rows, m), in blocks of at most ``_CHUNK_POINTS``
+    (row, point, node) values (within a row, too, for the largest bays)."""
+    from scipy import special
+
+    r, w = panel._radial_nodes(0.0, counts)
+    j = np.arange(m)
+    y = np.cos(np.pi * (j + 0.5) / m)
+    kt = kt_max[:, None] * np.sqrt((y + 1) / 2)          # (rows, m)
+    vals = np.empty((k.size, m))
+    weight = np.sin(k[:, None] * r) * w                  # (rows, nodes)
+    rows_step = max(1, _CHUNK_POINTS // (m * r.size))
+    pts_step = m if m * r.size <= _CHUNK_POINTS else max(1, _CHUNK_POINTS // r.size)
+    for i in range(0, k.size, rows_step):  # memory-sized blocks of rows ...
+        rs = slice(i, i + rows_step)
+        for p in range(0, m, pts_step):    # ... and of points (one block but for big bays)
+            ps = slice(p, p + pts_step)
+            vals[rs, ps] = np.einsum("ijk,ik->ij", special.j0(kt[rs, ps, None] * r),
+                                     weight[rs])
+    vals *= k[:, None] / (2 * np.pi * panel.area)
+    return vals
+
+
+def _chebyshev_coefficients(vals):
+    """Chebyshev coefficients (rows, m) from values (rows, m) at the m Chebyshev points
+    ``cos(pi (j + 1/2) / m)`` (discrete cosine transform, ``np.einsum``: a fixed order per
+    row), in blocks of columns of at most ``_CHUNK_POINTS`` basis values."""
+    m = vals.shape[1]
+    j = np.arange(m)
+    coef = np.empty_like(vals)
+    step = max(1, _CHUNK_POINTS // m)
+    for c in range(0, m, step):  # memory-sized blocks of coefficients
+        basis = np.cos(np.pi * np.outer(j + 0.5, j[c:c + step]) / m) * (2.0 / m)
+        coef[:, c:c + step] = np.einsum("ij,jk->ik", vals, basis)
+    coef[:, 0] /= 2
+    return coef
+
+
+def _local_series(coef, kt_pieces):
+    """Re-expand global series ``coef`` (rows, degree) in ``y = 2 u^2 - 1`` on
+    ``kt_pieces`` equal pieces of ``u = kt/kt_max`` in [0, 1]: (rows, pieces *
+    PIECE_TERMS) coefficients of each piece's series in its own variable, from the
+    global series' values (Clenshaw) at the piece's Chebyshev points (a discrete cosine
+    transform in a fixed order of terms)."""
+    from .chebyshev_kernels import PIECE_TERMS, chebyshev_sums
+
+    j = np.arange(PIECE_TERMS)
+    x = np.cos(np.pi * (j + 0.5) / PIECE_TERMS)
+    u = (np.arange(kt_pieces)[:, None] + (x + 1) / 2) / kt_pieces   # (pieces, terms)
+    y = (2 * u * u - 1).reshape(-1)
+    vals = np.empty((coef.shape[0], y.size))
+    chebyshev_sums(coef, y, vals)
+    vals = vals.reshape(coef.shape[0], kt_pieces, PIECE_TERMS)
+    basis = np.cos(np.pi * np.outer(j + 0.5, j) / PIECE_TERMS) * (2.0 / PIECE_TERMS)
+    local = vals[..., 0, None] * basis[0]
+    for i in range(1, PIECE_TERMS):  # the piece's DCT, term by term in a fixed order
+        local += vals[..., i, None] * basis[i]
+    local[..., 0] /= 2
+    return local.reshape(coef.shape[0], -1)
+
+
 def _table_rows(panel: Panel, k, kt_max):
-    """Chebyshev degree (n,) and coefficients (n, max degree) of ``sigma(k, kt)`` on
-    ``0 <= kt <= kt_max`` for distinct pairs ``(k[i], kt_max[i])``, remembered per bay.
+    """Pieces (n,) and piecewise coefficients (flat: row after row, piece after piece,
+    ``PIECE_TERMS`` each) of ``sigma(k, kt)`` on ``0 <= kt <= kt_max`` for distinct pairs
+    ``(k[i], kt_max[i])``, remembered per bay.
 
     Each row uses its own radial nodes (:meth:`Panel._node_counts` of ``k + kt_max``) and
-    sums in a fixed order (``np.einsum``, no BLAS blocking), so its numbers do not depend
-    on the other rows; rows are grouped by degree and node counts (a loop over a few
-    groups).
+    sums in a fixed order (``np.einsum`` and elementwise passes, no BLAS blocking), so its
+    numbers do not depend on the other rows; rows are grouped by global degree and node
+    counts (a loop over a few groups).
     """
-    from scipy import special
+    from .chebyshev_kernels import PIECE_TERMS
 
     n = k.size
     keys = [(panel.width, panel.height, float(a), float(b)) for a, b in zip(k, kt_max,
@@ -262,32 +347,26 @@ def _table_rows(panel: Panel, k, kt_max):
         kinds, which = np.unique(groups, axis=0, return_inverse=True)
         which = which.reshape(-1)
         for g, kind in enumerate(kinds):  # loop over (degree, nodes) groups
-            sel = np.flatnonzero(which == g)
-            rows = todo[sel]
+            rows = todo[np.flatnonzero(which == g)]
             m = int(kind[0])
-            r, w = panel._radial_nodes(0.0, kind[1:])
-            j = np.arange(m)
-            y = np.cos(np.pi * (j + 0.5) / m)
-            kt = kt_max[rows, None] * np.sqrt((y + 1) / 2)          # (rows, m)
-            vals = np.empty((rows.size, m))
-            step = max(1, _CHUNK_POINTS // (m * r.size))
+            vals = _global_values(panel, k[rows], kt_max[rows], m, kind[1:])
+            coef = _chebyshev_coefficients(vals)
+            p = int(_piece_count(m))
+            step = max(1, _CHUNK_POINTS // (p * PIECE_TERMS))
             for i in range(0, rows.size, step):  # memory-sized blocks of rows
-                sl = slice(i, i + step)
-                q = special.j0(kt[sl, :, None] * r) * np.sin(k[rows[sl], None, None] * r)
-                vals[sl] = np.einsum("ijk,k->ij", q, w)
-            vals *= k[rows, None] / (2 * np.pi * panel.area)
-            basis = np.cos(np.pi * np.outer(j + 0.5, j) / m) * (2.0 / m)
-            coef = np.einsum("ij,jk->ik", vals, basis)
-            coef[:, 0] /= 2
-            for i, row in zip(rows, coef, strict=True):  # store each distinct pair's row
-                found[i] = (m, row.copy())    # its own copy: evicting it frees it
+                local = _local_series(coef[i:i + step], p)
+                for row, series in zip(rows[i:i + step], local, strict=True):
+                    found[row] = (p, series.copy())  # its own copy: evicting it frees it
         with _ROWS_LOCK:
+            if not _ROWS:
+                _ROWS_KEPT[0] = 0   # emptied (by a test) or never filled
             for i in todo:  # remember the new rows
+                old = _ROWS.get(keys[i])   # another thread's copy of the same row
+                _ROWS_KEPT[0] += found[i][1].size - (0 if old is None else old[1].size)
                 _ROWS[keys[i]] = found[i]
-            while len(_ROWS) > _ROWS_SIZE:
-                _ROWS.popitem(last=False)
-    degree = np.array([f[0] for f in found], dtype=int)
-    coef = np.zeros((n, int(degree.max(initial=4))))
-    for i, (m, row) in enumerate(found):  # assemble the rows
-        coef[i, :m] = row
-    return degree, coef
+            while len(_ROWS) > 1 and (len(_ROWS) > _ROWS_SIZE
+                                      or _ROWS_KEPT[0] > _ROWS_FLOATS):
+                _ROWS_KEPT[0] -= _ROWS.popitem(last=False)[1][1].size
+    pieces = np.array([f[0] for f in found], dtype=np.int64)
+    coef = np.concatenate([f[1] for f in found]) if n else np.zeros(0)
+    return pieces, coef
