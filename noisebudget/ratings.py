@@ -7,6 +7,8 @@ A single rating refuses to run (``RatingError``) when any band it needs is missi
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 
 from .bands import a_weighting, third_octave_bands
@@ -34,13 +36,28 @@ class RatingError(ValueError):
     """The band values do not cover what a rating needs."""
 
 
+@lru_cache(maxsize=256)
+def _positions(nominal: tuple, needed: tuple):
+    """Index of each needed band in ``nominal`` (the last where one repeats), or the
+    missing bands; remembered per band list (a trade study rates thousands of curves on
+    the same bands)."""
+    lookup = {round(f, 2): i for i, f in enumerate(nominal)}
+    missing = tuple(f for f in needed if round(float(f), 2) not in lookup)
+    if missing:
+        return None, missing
+    return np.array([lookup[round(float(f), 2)] for f in needed]), ()
+
+
 def _pick(nominal_hz, values, needed, name) -> np.ndarray:
-    lookup = {round(float(f), 2): float(v) for f, v in zip(nominal_hz, values, strict=True)}
-    missing = [f for f in needed if round(float(f), 2) not in lookup]
+    values = np.asarray(values, dtype=float).reshape(-1)
+    nominal = tuple(np.asarray(nominal_hz, dtype=float).reshape(-1).tolist())
+    if len(nominal) != values.size:
+        raise ValueError(f"{name}: {len(nominal)} bands and {values.size} values")
+    idx, missing = _positions(nominal, tuple(needed))
     if missing:
         raise RatingError(f"{name} needs one-third-octave bands {needed[0]}-{needed[-1]} Hz; "
                           f"missing {', '.join(f'{m:g}' for m in missing)} Hz")
-    out = np.array([lookup[round(float(f), 2)] for f in needed])
+    out = values[idx]
     if not np.all(np.isfinite(out)):
         raise RatingError(f"{name}: band values must be finite numbers")
     return out
