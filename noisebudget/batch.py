@@ -47,7 +47,6 @@ from typing import NamedTuple
 
 import numpy as np
 
-from . import kernels
 from .bands import Bands, band_average
 from .incidence import (
     INCIDENCE,
@@ -238,6 +237,8 @@ class _Rows:
         """The steps as :func:`noisebudget.kernels.transmission` takes them: kinds,
         lossless flags, real and complex numbers per (layer, row), the direction-dependent
         sheet's series per row and its index (-1: none)."""
+        from . import kernels  # numba loads with the first batch computed
+
         n, nst = self.omega.size, len(self.steps)
         kind = np.zeros(nst, dtype=np.int64)
         real = np.zeros(nst, dtype=bool)
@@ -372,6 +373,8 @@ class _Rows:
                 kt[0] = np.sqrt(kt2)
             return kt[0]
 
+        from . import kernels
+
         y1 = np.sqrt(1.0 - u) / self.z1
         y2abs = k1 * np.sqrt(np.abs(q)) / (om * self.rho2)   # |Y2| = |kz2| / (omega rho2)
         sheet = self.batch.sheet
@@ -428,6 +431,8 @@ class _Rows:
         return out.reshape(n, k)
 
     def _tau(self, rows, u, q):
+        from . import kernels
+
         kind, real, rpar, cpar, az, sheet = self.program
         if self.table is None:
             sigma = np.empty((0, 0))

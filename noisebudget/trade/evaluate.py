@@ -35,8 +35,8 @@ RATINGS = ("stc", "rw", "c", "ctr", "oitc")
 #: Relative tolerance of a variant's wall transmission: the budget's own (3e-3, 0.013 dB
 #: estimated), so that a sweep's variant equals ``run_study`` of that variant written into
 #: the file, bit for bit. A looser target (1e-2, 0.043 dB estimated, still within the 0.1
-#: dB a variant must hold) was measured to save about a fifth of the points of the demo
-#: sidewall (160k to 127k per variant, curved skin in its bay, to 10 kHz); every integral
+#: dB a variant must hold) was measured to save about a quarter of the points of the demo
+#: sidewall (65k to 50k per variant, curved skin in its bay, to 10 kHz); every integral
 #: stays adaptive either way.
 TRADE_RTOL = WALL_RTOL
 _CACHE_SIZE = 4096
