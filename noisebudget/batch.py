@@ -153,11 +153,59 @@ class _Batch:
         self.sheet = None if first.isotropic else first._azimuth_sheet()
         c1, c2 = first.source_air.sound_speed, first.receiver_air.sound_speed
         self.u_critical = (c1 / c2) ** 2
+        # per layer, a class per variant: variants whose numbers of that layer are equal
+        # share one (a sweep that leaves a tile alone computes its Bessel functions once
+        # per frequency, not once per variant)
+        self.classes = [_classes(g, len(self.stacks)) for g in self.layers]
 
     def layers_at(self, var):
         """Each layer with its numbers as (n, 1) arrays for the rows' variants ``var``."""
         return [_build(g, var, t) for g, t in zip(self.layers, self.first.mounted_layers,
                                                   strict=True)]
+
+
+def _numbers(gathered) -> list:
+    """The per-variant number arrays of a gathered layer, flat."""
+    if isinstance(gathered, np.ndarray):
+        return [gathered]
+    if isinstance(gathered, tuple) and len(gathered) == 2 and isinstance(gathered[0], type):
+        return [a for v in gathered[1].values() for a in _numbers(v)]
+    if isinstance(gathered, tuple):
+        return [a for v in gathered for a in _numbers(v)]
+    return []
+
+
+def _classes(gathered, nv: int) -> np.ndarray:
+    """Class of each variant (nv,): equal numbers, equal class."""
+    cols = _numbers(gathered)
+    if not cols:
+        return np.zeros(nv, dtype=np.intp)
+    back = np.unique(np.column_stack(cols), axis=0, return_inverse=True)[1]
+    return back.reshape(-1).astype(np.intp)
+
+
+def _take(x, rows, back, m):
+    """An element's per-row value ``x`` (first axis of the ``m`` distinct rows, or
+    broadcast) spread back to all rows."""
+    if np.ndim(x) >= 1 and np.shape(x)[0] == m:
+        return np.asarray(x)[back]
+    return x
+
+
+def _element_once(layer, cls, om, probe, air):
+    """``layer.element`` at the rows, computed once per distinct pair of variant class
+    ``cls`` and frequency (each row's value is its own, bit for bit: the models compute
+    row by row)."""
+    n = om.shape[0]
+    first, back = np.unique(np.column_stack([cls, om[:, 0]]), axis=0, return_index=True,
+                            return_inverse=True)[1:]
+    if first.size == n:
+        return layer.element(om, probe, air)
+    back = back.reshape(-1)
+    el = _rows_of(layer, first).element(om[first], probe[first], air)
+    m = first.size
+    values = {f.name: _take(getattr(el, f.name), first, back, m) for f in fields(el)}
+    return type(el)(**values)
 
 
 class _FluidRows(NamedTuple):
@@ -200,7 +248,7 @@ class _Rows:
                 self.steps.append(("azimuth", layer))
                 self.mass.append(None)
                 continue
-            el = layer.element(om, probe, self.air)
+            el = _element_once(layer, batch.classes[i][self.var], om, probe, self.air)
             if isinstance(el, FluidElement):
                 rho = np.broadcast_to(el.density, (n, 1))[:, 0]
                 bulk = np.broadcast_to(el.bulk_modulus, (n, 1))[:, 0]
