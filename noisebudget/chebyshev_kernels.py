@@ -9,13 +9,14 @@ take about 0.7 s once per process. :mod:`noisebudget.finite_size` imports this m
 only when it builds or evaluates a table, so that stacks without a bay never load numba.
 """
 
-import numba
 import numpy as np
+
+from .compiled import compiled
 
 PIECE_TERMS = 13   # terms (degree 12) of the series on each piece of a table row
 
 
-@numba.njit(cache=True, nogil=True)
+@compiled
 def piecewise_chebyshev_sums(rows, kt, kt_max, scale, pieces, start, coef, out):
     """Piecewise Chebyshev series at points (row, kt), point by point.
 
@@ -43,7 +44,7 @@ def piecewise_chebyshev_sums(rows, kt, kt_max, scale, pieces, start, coef, out):
             out[i, m] = coef[base] + x * b1 - b2
 
 
-@numba.njit(cache=True, nogil=True)
+@compiled
 def chebyshev_sums(coef, y, out):
     """``out[i, j] = sum_n coef[i, n] T_n(y[j])`` for rows of coefficients ``coef`` (m,
     degree) at points ``y`` in [-1, 1], by Clenshaw's recurrence ``b_n = c_n + 2 y

@@ -11,25 +11,23 @@ replace, documented where they are used (the module docstring of
 ``tests/test_kernels.py`` checks them against independent references.
 
 Each point's value depends on its own inputs only, computed in a fixed order, so a row's
-numbers do not depend on the rows evaluated with it, bit for bit. Compiled with
-``cache=True`` (the first call in a fresh installation compiles, about a second per
-kernel; later processes load the cached machine code) and ``nogil=True`` (the budget's
-worker threads run them in parallel). ``fastmath`` stays off: IEEE arithmetic, no
-reassociation.
+numbers do not depend on the rows evaluated with it, bit for bit. Compiled by
+:func:`noisebudget.compiled.compiled` (IEEE arithmetic, the GIL released, the machine code
+cached on disk: the first call in a fresh installation compiles, a few seconds in all;
+later processes load it).
 """
 
 from __future__ import annotations
 
 import numpy as np
-from numba import njit
+
+from .compiled import compiled
 
 __all__ = ["AZIMUTH", "FLUID", "SERIES", "SHEET", "SKIP", "fluid_back", "mean_inverse_square",
            "transmission"]
 
-_JIT = {"cache": True, "nogil": True, "fastmath": False, "error_model": "numpy"}
 
-
-@njit(**_JIT)
+@compiled
 def _entries(q_re, q_im, real, d, kt2):
     """Scaled entries ``(cs, sinc, ksn, y)`` of a fluid layer at one point: ``cos(x) e^-y``,
     ``sinc(x) e^-y``, ``kz sin(x) e^-y`` with ``x = kz d`` (Im x >= 0), ``y = |Im x|``.
@@ -72,7 +70,7 @@ def _entries(q_re, q_im, real, d, kt2):
     return cs, sinc, ksn, y
 
 
-@njit(**_JIT)
+@compiled
 def fluid_back(q_re, q_im, real, c12, c21, d, rows, kt2, p, v, scale):
     """``(P, V) <- M (P, V)`` through a fluid layer at every point, in place, and its
     scale's log added to ``scale``.
@@ -94,7 +92,7 @@ def fluid_back(q_re, q_im, real, c12, c21, d, rows, kt2, p, v, scale):
             scale[i, j] += y
 
 
-@njit(**_JIT)
+@compiled
 def _csqrt(z):
     """Principal square root of a complex number by the half-angle formulas (real square
     roots, about three times faster than the general complex one), which it falls back on
@@ -110,12 +108,12 @@ def _csqrt(z):
     return complex(ay / (2.0 * m), np.copysign(m, y))
 
 
-@njit(**_JIT)
+@compiled
 def _abs2(z):
     return z.real * z.real + z.imag * z.imag
 
 
-@njit(**_JIT)
+@compiled
 def _pole_root(r):
     """``w = +-sqrt(r (r - 1))`` with ``Re(w conj(r - 1/2)) >= 0``: the pole mean is
     ``J(r) = -1 / w``."""
@@ -126,7 +124,7 @@ def _pole_root(r):
     return w
 
 
-@njit(**_JIT)
+@compiled
 def _pole_term(r, c):
     """``Im(J(r) / c) / Im r`` with ``J(r) = -1 / w``: ``Im(-1 / z) = Im z / |z|^2`` for
     ``z = w c`` (no complex division)."""
@@ -134,7 +132,7 @@ def _pole_term(r, c):
     return z.imag / (z.real * z.real + z.imag * z.imag) / r.imag
 
 
-@njit(**_JIT)
+@compiled
 def _off_axis(r):
     """A root on the real axis moved off it by a relative 1e-12."""
     tiny = 1e-12 * (1.0 + abs(r))
@@ -143,7 +141,7 @@ def _off_axis(r):
     return r
 
 
-@njit(**_JIT)
+@compiled
 def _mean_one(p0, p1, p2):
     """The mean of ``|p(x)|^-2`` at one point (see
     :func:`noisebudget.incidence.azimuth_mean_inverse_square`)."""
@@ -176,7 +174,7 @@ def _mean_one(p0, p1, p2):
     return (_pole_term(r1, e * f) + _pole_term(r2, e * f.conjugate())) / _abs2(p2)
 
 
-@njit(**_JIT)
+@compiled
 def mean_inverse_square(p0, p1, p2, out):
     """``out[i]`` = the azimuth mean of ``|p0 + p1 x + p2 x^2|^-2`` (1-D arrays)."""
     for i in range(p0.size):
@@ -189,13 +187,13 @@ def mean_inverse_square(p0, p1, p2, out):
 SKIP, FLUID, SHEET, SERIES, AZIMUTH = 0, 1, 2, 3, 4
 
 
-@njit(**_JIT)
+@compiled
 def _series(c, f, s):
     """``A + B s + C s^2 + E s^2 / (1 + F s)`` (a sheet's impedance in ``s = kt^2``)."""
     return c[0] + s * (c[1] + s * c[2]) + c[3] * (s * s) / (1.0 + f * s)
 
 
-@njit(**_JIT)
+@compiled
 def transmission(kind, real, rpar, cpar, az, sheet, k1, omega, z1, rho2, z2, rows, u, q,
                  sigma, out):
     """tau at every point of a batch's rows, in one pass (the arithmetic of

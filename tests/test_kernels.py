@@ -131,3 +131,19 @@ def test_complex_square_root_is_the_principal_branch():
     scale = np.where(ref == 0, 1.0, np.abs(ref))
     assert np.max(np.abs(got - ref) / scale) < 4e-16
     assert kernels._csqrt(complex(-1, -0.0)) == -1j
+
+
+def test_kernels_compile_without_a_writable_cache():
+    # where numba finds no writable cache folder the package still imports and computes
+    # (each process compiles for itself); simulated by removing numba's cache locations
+    import subprocess
+    import sys
+
+    code = ("import numba.core.caching as c; c.CacheImpl._locator_classes = []\n"
+            "import numpy as np\n"
+            "from noisebudget.incidence import azimuth_mean_inverse_square as m\n"
+            "print(m(1 + 0j, 0j, 0j))\n")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         timeout=300)
+    assert out.returncode == 0, out.stderr
+    assert float(out.stdout) == 1.0
