@@ -407,48 +407,32 @@ class _Rows:
             out[i:i + step] = self._tau(rows[i:i + step], u[i:i + step], q[i:i + step])
         return out
 
-    def _state(self, rows, u, q):
-        """The receiving state carried back to the front: ``(P, V)`` (up to the
-        direction-dependent sheet, if any), with ``Y1``, ``|Y2|``, the scale's log and the
-        trace wavenumber (computed once)."""
-        k1 = self.k1[rows][:, None]
-        om = self.omega[rows][:, None]
-        kt2 = k1 * k1 * u
-        kt = [None]
-
-        def trace():
-            if kt[0] is None:
-                kt[0] = np.sqrt(kt2)
-            return kt[0]
-
-        from . import kernels
-
-        y1 = np.sqrt(1.0 - u) / self.z1
-        y2abs = k1 * np.sqrt(np.abs(q)) / (om * self.rho2)   # |Y2| = |kz2| / (omega rho2)
-        sheet = self.batch.sheet
-        scale = np.zeros(u.shape)
-        p = np.ones(u.shape, complex)
-        v = np.where(q >= 0, y2abs + 0j, -1j * y2abs)     # (P, V) = (1, Y2)
-        for i in range(len(self.steps) - 1, -1 if sheet is None else sheet, -1):
-            step = self.steps[i]
-            if step is None:
-                continue
-            kind = step[0]
-            if kind == "sheet":
-                p += step[1][rows][:, None] * v
-            elif kind == "angle":
-                p += self._angle_impedance(step[1], rows, om, trace()) * v
-            else:
-                kernels.fluid_back(*step[1], rows, kt2, p, v, scale)
-        return p, v, y1, y2abs, scale, kt2, trace, om
-
     def den(self, rows, t, cmap):
         """The denominator ``Y1 P + V`` (scaled by the fluid layers' ``exp(-|Im kz d|)``,
         which has no zeros) at one real point ``t`` of ``cmap`` per row (isotropic
-        stacks)."""
+        stacks): the receiving state ``(P, V) = (1, Y2)`` carried back to the front, as
+        :func:`noisebudget.kernels.transmission` does."""
+        from . import kernels
+
         u, q, _ = cmap(t[:, None])
-        p, v, y1 = self._state(rows, u, q)[:3]
-        return (y1 * p + v)[:, 0]
+        k1 = self.k1[rows][:, None]
+        om = self.omega[rows][:, None]
+        kt2 = k1 * k1 * u
+        y2abs = k1 * np.sqrt(np.abs(q)) / (om * self.rho2)   # |Y2| = |kz2| / (omega rho2)
+        scale = np.zeros(u.shape)
+        p = np.ones(u.shape, complex)
+        v = np.where(q >= 0, y2abs + 0j, -1j * y2abs)
+        for step in reversed(self.steps):  # a loop over the layers, back to front
+            if step is None:
+                continue
+            if step[0] == "sheet":
+                p += step[1][rows][:, None] * v
+            elif step[0] == "angle":
+                layer = _rows_of(step[1], rows)
+                p += layer.element(om, np.sqrt(kt2), self.air).impedance * v
+            else:  # a fluid layer (an isotropic stack has no azimuth step)
+                kernels.fluid_back(*step[1], rows, kt2, p, v, scale)
+        return (np.sqrt(1.0 - u) / self.z1 * p + v)[:, 0]
 
     def poles(self, t0, cmap, steps: int = 2):
         """Complex zeros of the denominator next to the real points ``t0`` (n, p) of
@@ -491,14 +475,6 @@ class _Rows:
         kernels.transmission(kind, real, rpar, cpar, az, sheet, self.k1, self.omega,
                              self.z1, self.rho2, self.z2, rows, u, q, sigma, out)
         return out
-
-    def _angle_impedance(self, layer, rows, om, kt):
-        return layer_impedance(_rows_of(layer, rows), om, kt, self.air)
-
-
-def layer_impedance(layer, om, kt, air):
-    """A sheet's impedance at (n, 1) frequencies and (n, m) trace wavenumbers."""
-    return layer.element(om, kt, air).impedance
 
 
 def _rows_of(obj, rows):
