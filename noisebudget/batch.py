@@ -184,7 +184,7 @@ def _classes(gathered, nv: int) -> np.ndarray:
     return back.reshape(-1).astype(np.intp)
 
 
-def _take(x, rows, back, m):
+def _take(x, back, m):
     """An element's per-row value ``x`` (first axis of the ``m`` distinct rows, or
     broadcast) spread back to all rows."""
     if np.ndim(x) >= 1 and np.shape(x)[0] == m:
@@ -204,7 +204,7 @@ def _element_once(layer, cls, om, probe, air):
     back = back.reshape(-1)
     el = _rows_of(layer, first).element(om[first], probe[first], air)
     m = first.size
-    values = {f.name: _take(getattr(el, f.name), first, back, m) for f in fields(el)}
+    values = {f.name: _take(getattr(el, f.name), back, m) for f in fields(el)}
     return type(el)(**values)
 
 
