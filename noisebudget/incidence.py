@@ -543,41 +543,8 @@ def azimuth_average(fn, nf: int, rtol: float = 3e-3, panels: int = 2,
     return adaptive_gauss_kronrod(fn, lo, hi, rtol, max_passes) / (np.pi / 2)
 
 
-def _arcsine_mean_pole(r):
-    """``(1 / pi) int_0^1 dx / (sqrt(x (1 - x)) (x - r))`` for complex r off [0, 1].
-
-    Equals ``-1 / w`` with ``w = sqrt(r) sqrt(r - 1)`` (principal roots; the product has
-    its branch cut on [0, 1]; Gradshteyn & Ryzhik 3.121 continued analytically). ``w`` is
-    formed as ``+-sqrt(r (r - 1))`` with the sign that makes ``w / (r - 1/2)`` (a principal
-    root of ``1 - 1 / (4 (r - 1/2)^2)``) have a positive real part: one complex root.
-    """
-    w = np.sqrt(r * (r - 1.0))
-    m = r - 0.5
-    np.negative(w, out=w, where=w.real * m.real + w.imag * m.imag < 0)
-    return -1.0 / w
-
-
 def _abs2(z):
     return z.real * z.real + z.imag * z.imag
-
-
-def _separate(r1, r2):
-    """Roots nearer each other than 1e-6 of their distance to [0, 1] moved apart to that
-    distance (the pair's sum varies on that scale: the shift's error is ~1e-12 of the
-    result, the cancellation left ~1e-10), and roots on the real axis (no loss anywhere)
-    moved off it by a relative 1e-12."""
-    mid, gap = (r1 + r2) / 2, (r1 - r2) / 2
-    least = np.maximum(1e-6 * np.abs(mid - np.clip(mid.real, 0.0, 1.0)),
-                       1e-14 * (1.0 + np.abs(mid)))
-    size = np.abs(gap)
-    unit = np.where(size > 0, gap / np.where(size > 0, size, 1.0), 1.0)
-    gap = np.where(size < least, unit * least, gap)
-    r1, r2 = mid + gap, mid - gap
-    out = []
-    for r in (r1, r2):
-        tiny = 1e-12 * (1.0 + np.abs(r))
-        out.append(np.where(np.abs(r.imag) < tiny, r.real + 1j * tiny, r))
-    return out
 
 
 def azimuth_mean_inverse_square(p0, p1, p2) -> np.ndarray:
@@ -607,15 +574,20 @@ def azimuth_mean_inverse_square(p0, p1, p2) -> np.ndarray:
     drops where ``|p2|`` (then ``|p1|``) is below 1e-13 of the other coefficients:
     ``Im J(r) / (|p1|^2 Im r)`` for a line, ``1 / |p0|^2`` for a constant.
     """
+    return _pointwise("mean_inverse_square", float, p0, p1, p2)
+
+
+def _pointwise(name, dtype, p0, p1, p2):
+    """The compiled azimuth mean ``name`` of :mod:`noisebudget.kernels` at every point
+    of the broadcast coefficients."""
     from . import kernels
 
     p0, p1, p2 = np.broadcast_arrays(np.asarray(p0, complex), np.asarray(p1, complex),
                                      np.asarray(p2, complex))
-    shape = p0.shape
-    out = np.empty(p0.size)
-    kernels.mean_inverse_square(*(np.ascontiguousarray(p).reshape(-1) for p in (p0, p1, p2)),
-                                out)
-    return out.reshape(shape)
+    out = np.empty(p0.size, dtype)
+    getattr(kernels, name)(*(np.ascontiguousarray(p).reshape(-1) for p in (p0, p1, p2)),
+                           out)
+    return out.reshape(p0.shape)
 
 
 def azimuth_mean_inverse(p0, p1, p2) -> np.ndarray:
@@ -637,30 +609,7 @@ def azimuth_mean_inverse(p0, p1, p2) -> np.ndarray:
     :func:`azimuth_mean_inverse_square`; ``J(r) / p1`` for a line, ``1 / p0`` for a
     constant. Nearly coincident or real roots are moved as there.
     """
-    p0, p1, p2 = np.broadcast_arrays(np.asarray(p0, complex), np.asarray(p1, complex),
-                                     np.asarray(p2, complex))
-    shape = p0.shape
-    p0, p1, p2 = p0.ravel(), p1.ravel(), p2.ravel()
-    quad = _abs2(p2) > 1e-26 * np.maximum(_abs2(p0), _abs2(p1))
-    lin = ~quad & (_abs2(p1) > 1e-26 * _abs2(p0))
-    const = ~quad & ~lin
-    out = np.empty(p0.shape, complex)
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        out[const] = 1.0 / p0[const]
-        if lin.any():
-            r = -p0[lin] / p1[lin]
-            tiny = 1e-12 * (1.0 + np.abs(r))
-            r = np.where(np.abs(r.imag) < tiny, r.real + 1j * tiny, r)
-            out[lin] = _arcsine_mean_pole(r) / p1[lin]
-        if quad.any():
-            a0, a1, a2 = p0[quad], p1[quad], p2[quad]
-            sq = np.sqrt(a1 * a1 - 4.0 * a0 * a2)
-            np.negative(sq, out=sq, where=a1.real * sq.real + a1.imag * sq.imag < 0)
-            q = -0.5 * (a1 + sq)
-            q[q == 0] = 1e-300
-            r1, r2 = _separate(q / a2, a0 / q)
-            out[quad] = (_arcsine_mean_pole(r1) - _arcsine_mean_pole(r2)) / (a2 * (r1 - r2))
-    return out.reshape(shape)
+    return _pointwise("mean_inverse", complex, p0, p1, p2)
 
 
 # arcsine-weighted moments E[x^k] = binom(2k, k) / 4^k of x = cos^2 phi
