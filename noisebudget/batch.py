@@ -248,7 +248,11 @@ class _Rows:
                 self.steps.append(("azimuth", layer))
                 self.mass.append(None)
                 continue
-            el = _element_once(layer, batch.classes[i][self.var], om, probe, self.air)
+            cls = batch.classes[i]
+            if cls.size > 1 and cls.max() + 1 < cls.size:  # variants that share this layer
+                el = _element_once(layer, cls[self.var], om, probe, self.air)
+            else:  # each variant's own numbers: a row per (variant, frequency) already
+                el = layer.element(om, probe, self.air)
             if isinstance(el, FluidElement):
                 rho = np.broadcast_to(el.density, (n, 1))[:, 0]
                 bulk = np.broadcast_to(el.bulk_modulus, (n, 1))[:, 0]
