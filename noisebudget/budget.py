@@ -282,8 +282,8 @@ def compute_budget(inp: StudyInputs, rtol: float | None = None) -> StudyResult:
     physics kernel, :func:`noisebudget.zone_paths.zone_transmissions`), the energy
     arrays (:func:`budget_arrays`), and the tables (:mod:`noisebudget.budget_tables`).
     ``rtol`` is the walls' estimated relative accuracy (default
-    :data:`noisebudget.zone_paths.WALL_RTOL`, 3e-3: 0.013 dB); a trade study passes its
-    own (:data:`noisebudget.trade.evaluate.TRADE_RTOL`).
+    :data:`noisebudget.zone_paths.WALL_RTOL`, 2e-2: 0.086 dB estimated); a trade study
+    passes its own (:data:`noisebudget.trade.evaluate.TRADE_RTOL`, the same).
     """
     from .budget_tables import build_tables
     from .zone_paths import WALL_RTOL, zone_transmissions
