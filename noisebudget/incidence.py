@@ -102,7 +102,7 @@ def _row_sums(row, values, n):
 
 
 def adaptive_panels(gk, row, lo, hi, nrows: int, rtol: float = 3e-3, max_passes: int = 60,
-                    per_pass: int = 8, aux=None) -> np.ndarray:
+                    per_pass: int = 8, aux=None, start=None) -> np.ndarray:
     """Integrals per row over its own list of panels, refined per row.
 
     Parameters
@@ -121,6 +121,9 @@ def adaptive_panels(gk, row, lo, hi, nrows: int, rtol: float = 3e-3, max_passes:
     aux : ndarray (p, k), optional
         Data that stays with each panel and its halves (e.g. the panel's change of
         variable); then ``gk(row, lo, hi, aux)``.
+    start : (ndarray, ndarray), optional
+        The initial panels' integrals and error estimates, computed already (by another
+        rule): only the panels bisected from them are evaluated by ``gk``.
 
     Returns
     -------
@@ -146,7 +149,10 @@ def adaptive_panels(gk, row, lo, hi, nrows: int, rtol: float = 3e-3, max_passes:
 
         def evaluate(r, a, b, which):
             return gk(r, a, b, aux[which])
-    val, err = (gk(row, lo, hi) if aux is None else gk(row, lo, hi, aux))
+    if start is not None:
+        val, err = (np.array(a, dtype=float) for a in start)
+    else:
+        val, err = (gk(row, lo, hi) if aux is None else gk(row, lo, hi, aux))
     for _ in range(max_passes):  # refinement passes, each vectorised over rows
         excess = _row_sums(row, err, nrows) - rtol * np.abs(_row_sums(row, val, nrows))
         bad = excess > 0

@@ -576,9 +576,9 @@ class Stack:
                                rtol: float = 3e-3) -> np.ndarray:
         """Band TL: the incidence-averaged tau averaged as energy over each band.
 
-        Uses :func:`noisebudget.bands.band_average` (one 15-point panel per one-third
-        octave to start, refined where the band holds a resonance or coincidence); never
-        an average of dB. The
+        Uses :func:`noisebudget.bands.band_average` (9 frequencies per one-third octave
+        to start, 19 and then bisected panels where the band holds a resonance or
+        coincidence); never an average of dB. The
         angle integral inside runs at ``3 rtol``: the frequency integral averages its
         (conservatively estimated) error further.
         """

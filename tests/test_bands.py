@@ -158,3 +158,60 @@ def test_log_interp_is_linear_in_log_frequency_and_flat_outside():
     got = log_interp([50, 100, np.sqrt(100 * 400), 400, 1000], [100, 400], [2.0, 6.0])
     np.testing.assert_allclose(got, [2, 2, 4, 6, 6])    # geometric mean: half way
     np.testing.assert_allclose(log_interp([10, 1e4], [], [3.0]), [3, 3])
+
+
+def _monomial(k):
+    return 2 / (k + 1) if k % 2 == 0 else 0.0
+
+
+def test_nested_band_rules_have_their_published_degrees():
+    # Patterson, Math. Comp. 22 (1968) 847: the 19-point extension of the 9-point Kronrod
+    # rule of the 4-point Gauss rule is exact to degree 29 (3 x 9 + 2), the 9-point rule
+    # to 13 (3 x 4 + 1), the Gauss rule to 7 (numpy's Gauss-Legendre nodes as reference);
+    # the 9 nodes are among the 19 and the weights are positive
+    from noisebudget.bands import K9, P19
+
+    x19, w19 = P19
+    x9, w9, w4 = K9
+    for k in range(30):
+        assert np.sum(w19 * x19**k) == pytest.approx(_monomial(k), abs=2e-15)
+    assert abs(np.sum(w19 * x19**30) - _monomial(30)) > 1e-12
+    for k in range(14):
+        assert np.sum(w9 * x9**k) == pytest.approx(_monomial(k), abs=2e-15)
+    assert abs(np.sum(w9 * x9**14) - _monomial(14)) > 1e-12
+    g, w = np.polynomial.legendre.leggauss(4)
+    np.testing.assert_allclose(x9[w4 > 0], g, atol=1e-15)
+    np.testing.assert_allclose(w4[w4 > 0], w, atol=1e-15)
+    assert set(np.round(x9, 15)) <= set(np.round(x19, 15))
+    assert np.all(w19 > 0) and np.all(w9 > 0)
+
+
+def test_band_average_stops_at_9_frequencies_where_the_band_is_smooth():
+    # a mass law (tau ~ f^-2) over a one-third octave: the 9-point rule is within 1e-9
+    # of the closed-form mean (int f^-2 df = 1/f_l - 1/f_u), and no further frequency is
+    # taken; a narrow resonance in the band asks for more, and its band value meets the
+    # closed form of a Lorentzian's integral (arctan)
+    b = nb.third_octave_bands(500, 500)
+    seen = []
+
+    def mass_law(f):
+        seen.append(np.size(f))
+        return 1e-3 * (500.0 / f) ** 2
+
+    got = band_average(mass_law, b, rtol=1e-6)[0]
+    exact = 1e-3 * 500.0**2 * (1 / b.lower[0] - 1 / b.upper[0]) / (b.upper[0] - b.lower[0])
+    assert got == pytest.approx(exact, rel=1e-9)
+    assert sum(seen) == 9
+
+    f0, g = 510.0, 2.0
+    count = []
+
+    def peak(f):
+        count.append(np.size(f))
+        return 1.0 / (1 + ((f - f0) / g) ** 2)
+
+    got = band_average(peak, b, rtol=1e-4)[0]
+    lo, hi = b.lower[0], b.upper[0]
+    exact = g * (np.arctan((hi - f0) / g) - np.arctan((lo - f0) / g)) / (hi - lo)
+    assert got == pytest.approx(exact, rel=1e-4)
+    assert sum(count) > 19
