@@ -148,7 +148,8 @@ K9 = (P19[0][_IN_K9], _full(_K9_W_HALF)[_IN_K9], _full(_G4_W_HALF)[_IN_K9])
 
 
 def band_average(func, bands: Bands, rtol: float = 3e-3, max_passes: int = 12,
-                 groups: int | None = None) -> np.ndarray:
+                 groups: int | None = None, atol=None,
+                 rtol_max: float | None = None) -> np.ndarray:
     """Band averages of a narrowband power quantity (e.g. tau), as energy.
 
     ``<q> = (1 / (f_u - f_l)) int q(f) df`` over each band (never an average of dB), by
@@ -178,11 +179,18 @@ def band_average(func, bands: Bands, rtol: float = 3e-3, max_passes: int = 12,
     at once (e.g. variants of a stack): ``func(group, f)`` receives the group index of
     each frequency, each (group, band) is refined on its own, and the result is shaped
     (groups, nb); a group's values do not depend on the other groups, bit for bit.
+
+    With ``atol`` (shaped like the result, in its units) and ``rtol_max``, a band has
+    converged where its estimated error is at most ``max(rtol <q>, min(atol, rtol_max
+    <q>))`` (:func:`noisebudget.incidence.adaptive_panels`): a minor part of a sum held
+    to a share of the sum, but to ``rtol_max`` of itself at worst.
     """
     from .incidence import GK15, _weighted_sum, adaptive_panels
 
     nb = len(bands)
     ng = 1 if groups is None else int(groups)
+    if atol is not None:  # per row of the integral, in its units
+        atol = (np.broadcast_to(atol, (ng, nb)) * (bands.upper - bands.lower)).ravel()
 
     def values(row, lo, hi, x):
         c, h = (lo + hi) / 2, (hi - lo) / 2
@@ -201,8 +209,11 @@ def band_average(func, bands: Bands, rtol: float = 3e-3, max_passes: int = 12,
 
     def unconverged(row, val, err):
         n = ng * nb
-        total, spread = np.bincount(row, val, n), np.bincount(row, err, n)
-        return (spread > rtol * np.abs(total))[row]
+        size = np.abs(np.bincount(row, val, n))
+        tol = rtol * size
+        if atol is not None:
+            tol = np.maximum(tol, np.minimum(atol, rtol_max * size))
+        return (np.bincount(row, err, n) > tol)[row]
 
     # at least one panel per one-third octave (three per octave band)
     per = max(1, int(np.ceil(3 / bands.b)))
@@ -224,7 +235,7 @@ def band_average(func, bands: Bands, rtol: float = 3e-3, max_passes: int = 12,
         v19 = h[more] * _weighted_sum(q19, w19)
         val[more], err[more] = v19, np.abs(v19 - val[more])
     total = adaptive_panels(panels, row, lo, hi, ng * nb, rtol, max_passes, per_pass=1,
-                            start=(val, err))
+                            start=(val, err), atol=atol, rtol_max=rtol_max)
     out = total.reshape(ng, nb) / (bands.upper - bands.lower)
     return out[0] if groups is None else out
 

@@ -96,9 +96,13 @@ def structure(stack) -> tuple:
     The airs, the bay, the bonding and, per mounted layer, its class and every setting
     that is not a number (and which numbers are zero or infinite) must agree.
     """
-    return (stack.source_air, stack.receiver_air, stack.cavity_air, stack.panel,
-            stack.bonding, tuple(layer.isotropic for layer in stack.mounted_layers),
-            tuple(_signature(layer) for layer in stack.mounted_layers))
+    key = stack.__dict__.get("_structure")
+    if key is None:  # once per stack object (a stack is frozen): the budget asks often
+        key = (stack.source_air, stack.receiver_air, stack.cavity_air, stack.panel,
+               stack.bonding, tuple(layer.isotropic for layer in stack.mounted_layers),
+               tuple(_signature(layer) for layer in stack.mounted_layers))
+        object.__setattr__(stack, "_structure", key)
+    return key
 
 
 def batchable(stack) -> bool:
@@ -510,16 +514,20 @@ def _theta_max(incidence, theta_max_deg):
     return np.radians(theta_max_deg)
 
 
-def _average_rows(batch: _Batch, var, f, incidence, theta_max, rtol):
-    """Incidence-averaged tau at rows (variant ``var``, frequency ``f``), 1-D arrays."""
+def _average_rows(batch: _Batch, var, f, incidence, theta_max, rtol, atol=None,
+                  rtol_max=None):
+    """Incidence-averaged tau at rows (variant ``var``, frequency ``f``), 1-D arrays;
+    ``atol`` (per row) and ``rtol_max`` as :func:`noisebudget.incidence.adaptive_panels`
+    takes them."""
     out = np.empty(f.size)
     for i in range(0, f.size, _ROWS):  # blocks of rows: bounded memory; rows independent
         sl = slice(i, i + _ROWS)
-        out[sl] = _average_block(batch, var[sl], f[sl], incidence, theta_max, rtol)
+        out[sl] = _average_block(batch, var[sl], f[sl], incidence, theta_max, rtol,
+                                 None if atol is None else atol[sl], rtol_max)
     return out
 
 
-def _average_block(batch, var, f, incidence, theta_max, rtol):
+def _average_block(batch, var, f, incidence, theta_max, rtol, atol=None, rtol_max=None):
     omega = 2 * np.pi * f
     umax = 0.0 if incidence == "normal" else float(np.sin(theta_max) ** 2)
     rows = _Rows(batch, var, omega, umax)
@@ -537,9 +545,11 @@ def _average_block(batch, var, f, incidence, theta_max, rtol):
             poles = np.concatenate([rows.poles(t_feats, cmap, _FEATURE_STEPS),
                                     rows.poles(np.concatenate(ends, axis=1), cmap,
                                                _KNEE_STEPS)], axis=1)
-            tau = paris_average_critical(rows.tau, n, cmap, poles=poles, rtol=rtol)
+            tau = paris_average_critical(rows.tau, n, cmap, poles=poles, rtol=rtol,
+                                         atol=atol, rtol_max=rtol_max)
         else:
-            tau = paris_average_critical(rows.tau, n, cmap, splits=t_feats, rtol=rtol)
+            tau = paris_average_critical(rows.tau, n, cmap, splits=t_feats, rtol=rtol,
+                                         atol=atol, rtol_max=rtol_max)
     # a bay's radiation efficiency can exceed 1: a nearly transparent stack is held at 1
     return tau if rows.table is None else np.minimum(tau, 1.0)
 
@@ -585,12 +595,15 @@ def average_transmissions(stacks, f_hz, incidence: str = "field",
 
 def average_rows(stacks, index, f_hz, incidence: str = "field",
                  theta_max_deg: float | None = None, rtol: float = 3e-3,
-                 warn: bool = True) -> np.ndarray:
+                 warn: bool = True, atol=None, rtol_max: float | None = None) -> np.ndarray:
     """Incidence-averaged tau of ``stacks[index[i]]`` at ``f_hz[i]``, per point (1-D).
 
     Each value equals the stack's own :meth:`~noisebudget.stack.Stack.average_transmission`
     at that frequency, bit for bit; points of stacks of one :func:`structure` are
-    computed together.
+    computed together. With ``atol`` (per point) and ``rtol_max``, a point of a batch
+    has converged where its estimated error is at most ``max(rtol tau, min(atol,
+    rtol_max tau))`` (:func:`noisebudget.incidence.adaptive_panels`); stacks the batch
+    cannot take keep ``rtol``.
     """
     from . import checks
 
@@ -609,7 +622,9 @@ def average_rows(stacks, index, f_hz, incidence: str = "field",
         sel = np.flatnonzero(local[index] >= 0)
         if sel.size:
             out[sel] = _average_rows(_Batch([stacks[i] for i in idx]), local[index[sel]],
-                                     f[sel], incidence, theta_max, rtol)
+                                     f[sel], incidence, theta_max, rtol,
+                                     None if atol is None else np.asarray(atol)[sel],
+                                     rtol_max)
     for i in others:
         sel = np.flatnonzero(index == i)
         if sel.size:

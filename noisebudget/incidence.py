@@ -102,7 +102,8 @@ def _row_sums(row, values, n):
 
 
 def adaptive_panels(gk, row, lo, hi, nrows: int, rtol: float = 3e-3, max_passes: int = 60,
-                    per_pass: int = 8, aux=None, start=None) -> np.ndarray:
+                    per_pass: int = 8, aux=None, start=None, atol=None,
+                    rtol_max: float | None = None) -> np.ndarray:
     """Integrals per row over its own list of panels, refined per row.
 
     Parameters
@@ -124,6 +125,11 @@ def adaptive_panels(gk, row, lo, hi, nrows: int, rtol: float = 3e-3, max_passes:
     start : (ndarray, ndarray), optional
         The initial panels' integrals and error estimates, computed already (by another
         rule): only the panels bisected from them are evaluated by ``gk``.
+    atol : ndarray (nrows,), optional
+        An absolute tolerance per row (in the integral's units) that may stand in for
+        ``rtol``, up to ``rtol_max`` of the row's integral: a row has converged where its
+        summed error is at most ``max(rtol |I|, min(atol, rtol_max |I|))``, e.g. a minor
+        part of a sum held to a share of the sum, but to ``rtol_max`` of itself at worst.
 
     Returns
     -------
@@ -154,7 +160,11 @@ def adaptive_panels(gk, row, lo, hi, nrows: int, rtol: float = 3e-3, max_passes:
     else:
         val, err = (gk(row, lo, hi) if aux is None else gk(row, lo, hi, aux))
     for _ in range(max_passes):  # refinement passes, each vectorised over rows
-        excess = _row_sums(row, err, nrows) - rtol * np.abs(_row_sums(row, val, nrows))
+        size = np.abs(_row_sums(row, val, nrows))
+        tol = rtol * size
+        if atol is not None:
+            tol = np.maximum(tol, np.minimum(atol, rtol_max * size))
+        excess = _row_sums(row, err, nrows) - tol
         bad = excess > 0
         idx = np.flatnonzero(bad[row] & (err > 0))
         if idx.size == 0:
@@ -412,7 +422,8 @@ _NEAR = 0.25    # poles narrower than this share of their segment shape the pane
 
 def paris_average_critical(fn, nrows: int, cmap: CriticalMap, poles=None, splits=None,
                            rtol: float = 3e-3, max_passes: int = 60,
-                           per_pass: int = 8) -> np.ndarray:
+                           per_pass: int = 8, atol=None,
+                           rtol_max: float | None = None) -> np.ndarray:
     """Paris average ``(1 / u_max) int_0^u_max g(u) du`` in the variable of a
     :class:`CriticalMap`, with panels shaped by the integrand's near-real poles.
 
@@ -438,6 +449,9 @@ def paris_average_critical(fn, nrows: int, cmap: CriticalMap, poles=None, splits
         is not known.
     rtol, max_passes, per_pass
         As :func:`adaptive_panels`.
+    atol : ndarray (nrows,), optional
+        With ``rtol_max``: an absolute tolerance per row on the average, as
+        :func:`adaptive_panels` takes it.
 
     Returns
     -------
@@ -512,8 +526,11 @@ def paris_average_critical(fn, nrows: int, cmap: CriticalMap, poles=None, splits
         return fn(rows, u, q) * dudt
 
     gk = _flat_gk(integrand, node_map)
+    if atol is not None:
+        atol = np.asarray(atol, dtype=float) * cmap.umax
     return adaptive_panels(gk, row[order], lo[order], hi[order], n, rtol, max_passes,
-                           per_pass, aux=aux[order]) / cmap.umax
+                           per_pass, aux=aux[order], atol=atol,
+                           rtol_max=rtol_max) / cmap.umax
 
 
 def azimuth_average(fn, nf: int, rtol: float = 3e-3, panels: int = 2,

@@ -6,10 +6,11 @@ each distinct package stack (packages built with ``based_on`` share stack object
 each group of leaks. Stacks of one structure (the variants of a trade study, each a
 package of one budget) are computed as one batch along a leading variants axis
 (:meth:`~noisebudget.stack.Stack.band_transmission_losses`, :mod:`noisebudget.batch`);
-a variant's numbers do not depend on which variants share its batch. The batches, each
-stack the batch cannot take (the general solve of elastic layers, nested azimuth
-averages), the leaks and the package absorption are independent tasks on a small thread
-pool (numpy releases the GIL inside its large array operations), the dearest first.
+a variant's numbers do not depend on which variants share its batch. The batches and
+each stack the batch cannot take (the general solve of elastic layers, nested azimuth
+averages) are independent tasks on a small thread pool (numpy and the compiled kernels
+release the GIL), the dearest first; then the leaks, whose tolerances follow from the
+walls, and the package absorption.
 
 A zone with a bay (``Zone.panel``) puts every package's stack on it into that bay
 (:meth:`~noisebudget.stack.Stack.with_panel`): its band and tone transmission include
@@ -18,8 +19,11 @@ layers in front of a leak radiate into the cavity and keep the infinite stack.
 
 A leak behind the first k layers of a stack transmits ``tau_front(f) * tau_leak(f)``,
 with ``tau_front`` the transmission of those layers into the cavity air (the leak then
-joins the cavity air to the cabin); the band value is the band average of that product,
-to a relative accuracy of 1 % (0.04 dB; a leak is one path of several). The fronts of all
+joins the cavity air to the cabin); the band value is the band average of that product.
+A leak is one path of its zone: its band value is held to the budget's 2 % of the
+zone's wall power ``S tau_wall`` or of itself, whichever is larger, but never looser
+than 10 % of itself (0.41 dB), so that its own level in the reports keeps a stated
+accuracy; a leak 20 dB below its wall then costs a third of the points. The fronts of all
 leak groups are batched like the stacks, and each leak's own transmission (which depends
 on the frequency and the airs only) is computed once per distinct frequency.
 """
@@ -45,6 +49,11 @@ __all__ = ["distinct_items", "zone_transmissions"]
 # flat and no bay (against runs at 3e-5)
 WALL_RTOL = 2e-2
 _LEAK_RTOL = WALL_RTOL
+# A leak path is one part of its zone's power: its band value is held to _LEAK_RTOL of the
+# zone's wall power (S tau_wall; the least over the cells the leak set serves) or of
+# itself, whichever is larger, but to _LEAK_SELF of itself at worst (0.41 dB), so that a
+# path's own level in the reports keeps a stated accuracy
+_LEAK_SELF = 0.1
 
 
 def _by_class(stacks, method: str, *args) -> np.ndarray:
@@ -76,10 +85,13 @@ def _leak_terms(leak_sets):
     return terms
 
 
-def _leak_area(terms, n_sets, sets, f, incidence, theta_max_deg):
+def _leak_area(terms, n_sets, sets, f, incidence, theta_max_deg, atol=None):
     """``sum S_l tau_l(f) tau_front(f)`` (m^2) of the leak set ``sets[p]`` at ``f[p]``, per
     point: the terms of a set in order (a loop over term positions, a set has few), each
-    leak's transmission once per distinct frequency, the fronts batched."""
+    leak's transmission once per distinct frequency, the fronts batched. With ``atol``
+    (m^2 per point: the band's tolerance of the set), the fronts' angle integrals take
+    ``_INNER`` times its share per term as their own absolute tolerance, up to
+    ``_INNER * _LEAK_SELF`` of themselves (:func:`noisebudget.batch.average_rows`)."""
     out = np.zeros(f.size)
     if not terms:
         return out
@@ -107,9 +119,15 @@ def _leak_area(terms, n_sets, sets, f, incidence, theta_max_deg):
         if has.any():
             used = sorted(set(term[has].tolist()))
             where = {k: n for n, k in enumerate(used)}
+            inner = None
+            if atol is not None:  # the band's share of this term, as tau_front
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    inner = batch._INNER * atol[sel[has]] / count[sets[sel[has]]] / area[has]
+                inner = np.where(np.isfinite(inner), inner, 0.0)  # no leak: rtol
             area[has] = area[has] * batch.average_rows(
                 [fronts[k] for k in used], np.array([where[k] for k in term[has]]),
-                f[sel[has]], incidence, theta_max_deg, batch._INNER * _LEAK_RTOL)
+                f[sel[has]], incidence, theta_max_deg, batch._INNER * _LEAK_RTOL,
+                atol=inner, rtol_max=batch._INNER * _LEAK_SELF)
         out[sel] += area
     return out
 
@@ -120,7 +138,9 @@ def zone_transmissions(inp, bands: Bands, tone_hz, rtol: float = WALL_RTOL) -> d
     Each distinct stack and each distinct set of leaks (with its stack) is computed once;
     the results are gathered onto the (package, zone) grid by index arrays. ``rtol`` is
     the walls' estimated relative accuracy (band averages, with the angle integral inside
-    at ``3 rtol``, and tones); the leak fronts keep the budget's own 2 %.
+    at ``3 rtol``, and tones); the leaks' bands are held to 2 % of the zone's wall power
+    or of themselves, and to 10 % of themselves at worst (``_LEAK_SELF``); their tones
+    to 2 % of themselves.
 
     Returns
     -------
@@ -153,26 +173,27 @@ def zone_transmissions(inp, bands: Bands, tone_hz, rtol: float = WALL_RTOL) -> d
     terms = _leak_terms(leak_sets)
     n_sets = len(leak_sets)
 
-    def leak_paths():
+    def leak_paths(wall):
         if terms:
-            band = band_average(lambda g, f: _leak_area(terms, n_sets, g, f, inc, tmax),
-                                bands, _LEAK_RTOL, groups=n_sets)
+            atol = _LEAK_RTOL * _set_power(wall, s_idx, l_idx, zones, n_sets)
+
+            def area(g, f):
+                b = np.minimum(np.searchsorted(bands.upper, f), len(bands) - 1)
+                return _leak_area(terms, n_sets, g, f, inc, tmax, atol[g, b])
+
+            band = band_average(area, bands, _LEAK_RTOL, groups=n_sets, atol=atol,
+                                rtol_max=_LEAK_SELF)
         else:
             band = np.zeros((n_sets, len(bands)))
         tone = _leak_area(terms, n_sets, np.repeat(np.arange(n_sets), tone_hz.size),
                           np.tile(tone_hz, n_sets), inc, tmax).reshape(n_sets, tone_hz.size)
         return band, tone
 
-    tasks = {}
+    tasks = {}  # the walls first: the leaks' tolerances follow from them
     for i in alone:  # stacks the batch cannot take: one task each, on the pool
         tasks["wall", i] = lambda i=i: walls([i])
     if together:
         tasks["batch", 0] = lambda: walls(together)
-    tasks["leak", 0] = leak_paths
-    if inp.include_package_absorption:
-        for i, s in enumerate(stacks):
-            tasks["absorb", i] = lambda s=s: s.reversed().random_incidence_absorption(
-                bands.centre, "receiver")
     done = _run(_longest_first(tasks, stacks))
     wall = np.empty((len(stacks), len(bands)))
     wall_tone = np.empty((len(stacks), tone_hz.size))
@@ -180,6 +201,12 @@ def zone_transmissions(inp, bands: Bands, tone_hz, rtol: float = WALL_RTOL) -> d
         wall[i], wall_tone[i] = done["wall", i][0][0], done["wall", i][1][0]
     if together:
         wall[together], wall_tone[together] = done["batch", 0]
+    tasks = {("leak", 0): lambda: leak_paths(wall)}
+    if inp.include_package_absorption:
+        for i, s in enumerate(stacks):
+            tasks["absorb", i] = lambda s=s: s.reversed().random_incidence_absorption(
+                bands.centre, "receiver")
+    done = _run(_longest_first(tasks, stacks))
     leak, leak_tone = done["leak", 0]
 
     absorption = inp.cabin_area_m2[inp.cabin_bands.index(bands.nominal)][None, :]
@@ -195,6 +222,16 @@ def zone_transmissions(inp, bands: Bands, tone_hz, rtol: float = WALL_RTOL) -> d
                                   )[l_idx],
             "absorption": np.broadcast_to(absorption, (len(pkgs), len(bands))).copy(),
             "tone_hz": tone_hz}
+
+
+def _set_power(wall, s_idx, l_idx, zones, n_sets):
+    """Per leak set and band, the least wall power ``S tau_wall`` (m^2) of the (package,
+    zone) cells it serves: (n_sets, B)."""
+    areas = np.array([z.area for z in zones])
+    power = (areas[None, :, None] * wall[s_idx]).reshape(-1, wall.shape[1])
+    out = np.full((n_sets, wall.shape[1]), np.inf)
+    np.minimum.at(out, l_idx.ravel(), power)
+    return out
 
 
 def _longest_first(tasks: dict, stacks) -> dict:
