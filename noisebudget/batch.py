@@ -13,7 +13,10 @@ once per row and reused at every angle and every adaptive pass: a fluid layer's 
 rho / K`` and its two matrix prefactors, the impedance of each sheet that does not depend
 on the angle (a tile's Bessel functions, a septum's mass), and the coefficients of each
 sheet that does as a series in ``s = kt^2`` (a plate's and a sandwich's ``kt_series``, a
-direction-dependent skin's ``azimuth_series``): the rows' *program*.
+direction-dependent skin's ``azimuth_series``): the rows' *program*. A sheet whose
+impedance costs special functions and depends on the frequency only (a tile,
+``remember_rows``) is remembered per variant layer and frequency while the layer lives:
+a budget's wall and leak front start at the same band nodes.
 
 Per point, one compiled pass (:func:`noisebudget.kernels.transmission`). The receiving
 half-space's state ``(1, Y2)`` is carried back through the layers as a vector, ``(P, V) <-
@@ -42,6 +45,8 @@ Time convention ``exp(+j omega t)``.
 
 from __future__ import annotations
 
+import threading
+import weakref
 from dataclasses import fields, is_dataclass
 from typing import NamedTuple
 
@@ -212,6 +217,45 @@ def _element_once(layer, cls, om, probe, air):
     return type(el)(**values)
 
 
+# per mounted layer (while it lives; equal layers share), its impedance per frequency:
+# the walls and the leak fronts of a budget evaluate a tile at the same band nodes
+_ROW_MEMO: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+_ROW_MEMO_LOCK = threading.Lock()
+
+
+def _remembered_sheet(batch, i, layer, var, om, probe, air):
+    """The element of layer ``i`` (a sheet whose impedance depends on the frequency only,
+    ``remember_rows``) at the rows, each (variant layer, frequency) computed once while
+    that layer lives: bit for bit the value of a computation of its own (the models
+    compute row by row)."""
+    n = var.size
+    objs = [s.mounted_layers[i] for s in batch.stacks]
+    z = np.empty(n, complex)
+    have = np.zeros(n, bool)
+    order = np.argsort(var, kind="stable")
+    cuts = np.flatnonzero(np.diff(var[order])) + 1
+    groups = np.split(order, cuts)
+    with _ROW_MEMO_LOCK:
+        memos = [_ROW_MEMO.get(objs[var[g[0]]]) for g in groups]
+    for g, memo in zip(groups, memos, strict=True):  # a loop over variants
+        if memo:
+            for r in g:  # dictionary look-ups, row by row
+                hit = memo.get(om[r, 0])
+                if hit is not None:
+                    z[r], have[r] = hit, True
+    todo = np.flatnonzero(~have)
+    if todo.size:
+        el = _rows_of(layer, todo).element(om[todo], probe[todo], air)
+        z[todo] = np.broadcast_to(el.impedance, (todo.size, 1))[:, 0]
+        with _ROW_MEMO_LOCK:
+            for g in groups:  # remember the new rows, per variant layer
+                new = g[~have[g]]
+                if new.size:
+                    memo = _ROW_MEMO.setdefault(objs[var[g[0]]], {})
+                    memo.update(zip(om[new, 0].tolist(), z[new].tolist(), strict=True))
+    return SheetElement(z[:, None])
+
+
 class _FluidRows(NamedTuple):
     """A fluid layer's numbers per row, as :func:`noisebudget.kernels.fluid_back` takes
     them: ``q = omega^2 rho / K`` (real and imaginary parts), whether the layer is
@@ -255,6 +299,8 @@ class _Rows:
             cls = batch.classes[i]
             if cls.size > 1 and cls.max() + 1 < cls.size:  # variants that share this layer
                 el = _element_once(layer, cls[self.var], om, probe, self.air)
+            elif getattr(layer, "remember_rows", False):  # each variant its own, costly
+                el = _remembered_sheet(batch, i, layer, self.var, om, probe, self.air)
             else:  # each variant's own numbers: a row per (variant, frequency) already
                 el = layer.element(om, probe, self.air)
             if isinstance(el, FluidElement):

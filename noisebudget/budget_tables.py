@@ -2,8 +2,8 @@
 
 Each table is a view of the budget's arrays: the product of its coordinates, masked
 where a row does not exist (a band outside a condition, a zone without leaks), with
-the values raveled. Only single-number ratings, which are a search per curve (ASTM
-E413, ISO 717-1), are computed one curve at a time.
+the values raveled; the single-number ratings (a search per curve, ASTM E413, ISO
+717-1) for every curve at once.
 """
 
 from __future__ import annotations
@@ -13,7 +13,7 @@ import pandas as pd
 
 from .bands import a_weighting
 from .budget import PATHS, SOURCE_PATH, StudyInputs, StudyResult
-from .ratings import RatingError, ratings
+from .ratings import rating_table
 from .stack import TL_CAP_DB
 
 __all__ = ["build_tables", "level_db", "tl_from_tau"]
@@ -241,12 +241,7 @@ def _ratings(pkgs, zones, nom, tl_pkg, wall_tau, areas) -> pd.DataFrame:
     composite TL of each package (the package alone, as a laboratory rates it)."""
     curves = np.concatenate([tl_pkg, _composite(wall_tau, areas, 1)[:, None]], axis=1)
     labels = np.append(zones, "composite")
-    rows = []
-    for p, name in enumerate(pkgs):  # one rating search per curve
-        for z, label in enumerate(labels):
-            try:
-                r = ratings(nom, curves[p, z])
-            except RatingError:
-                r = {k: None for k in ("stc", "rw", "c", "ctr", "oitc")}
-            rows.append({"package": name, "zone": label, **r})
-    return pd.DataFrame(rows)
+    table = rating_table(nom, curves.reshape(-1, curves.shape[-1]))
+    return pd.DataFrame({"package": np.repeat(np.asarray(pkgs, dtype=object), labels.size),
+                         "zone": np.tile(labels.astype(object), len(pkgs)), **table}
+                        ).infer_objects()

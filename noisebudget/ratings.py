@@ -13,7 +13,8 @@ import numpy as np
 
 from .bands import a_weighting, third_octave_bands
 
-__all__ = ["RatingError", "Ratings", "oitc", "psil", "ratings", "rw", "sil3", "sil4", "stc"]
+__all__ = ["RatingError", "Ratings", "oitc", "psil", "rating_table", "ratings", "rw", "sil3",
+           "sil4", "stc"]
 
 # ASTM E413: contour relative to its 500 Hz value, 125 .. 4000 Hz (16 bands)
 STC_BANDS = (125, 160, 200, 250, 315, 400, 500, 630, 800, 1000, 1250, 1600, 2000, 2500,
@@ -181,3 +182,64 @@ def ratings(nominal_hz, tl_db) -> Ratings:
         values.update(zip(keys, got if isinstance(got, tuple) else (got,), strict=True))
     order = ("stc", "rw", "c", "ctr", "oitc")
     return Ratings({k: values[k] for k in order}, {k: why[k] for k in order if k in why})
+
+
+def _columns(nominal_hz, curves, needed):
+    """The curves' values at the needed bands (n, k) and which curves have them all
+    finite, or None when a band is missing."""
+    nominal = tuple(np.asarray(nominal_hz, dtype=float).reshape(-1).tolist())
+    idx, missing = _positions(nominal, tuple(needed))
+    if missing:
+        return None, None
+    out = curves[:, idx]
+    return out, np.all(np.isfinite(out), axis=1)
+
+
+def rating_table(nominal_hz, tl_db) -> dict:
+    """:func:`ratings` of many curves at once: ``tl_db`` (n, bands) on ``nominal_hz``.
+
+    Returns ``{"stc", "rw", "c", "ctr", "oitc"}`` each an object array (n,) of ints, or
+    None where :func:`ratings` gives None (bands missing, values not finite, TL too low
+    for any STC contour); equal to :func:`ratings` curve by curve (the same searches,
+    every curve at once).
+    """
+    curves = np.atleast_2d(np.asarray(tl_db, dtype=float))
+    n = curves.shape[0]
+    out = {k: np.full(n, None, dtype=object) for k in ("stc", "rw", "c", "ctr", "oitc")}
+    if np.size(nominal_hz) != curves.shape[1]:
+        raise ValueError(f"{np.size(nominal_hz)} bands and {curves.shape[1]} values per curve")
+    with np.errstate(invalid="ignore", over="ignore"):
+        tl, ok = _columns(nominal_hz, curves, STC_BANDS)
+        if tl is not None and ok.any():
+            t = np.floor(tl[ok] + 0.5)
+            deficiency = np.maximum(np.arange(151)[None, :, None] + np.array(STC_CONTOUR)
+                                    - t[:, None, :], 0)
+            fits = (deficiency.sum(axis=2) <= 32) & (deficiency.max(axis=2) <= 8)
+            value = np.where(fits.all(axis=1), 150, np.argmin(fits, axis=1) - 1)
+            out["stc"][np.flatnonzero(ok)[fits[:, 0]]] = value[fits[:, 0]].tolist()
+        r, ok = _columns(nominal_hz, curves, RW_BANDS)
+        if r is not None and ok.any():
+            r = np.round(r[ok], 1)
+            r10 = np.round(r * 10).astype(int)
+            ref = np.asarray(RW_REFERENCE)
+            first = np.floor(r.min(axis=1) - ref.max()).astype(int)
+            count = (np.ceil(r.max(axis=1) - r.min(axis=1)).astype(int) + int(np.ptp(ref))
+                     + 40)
+            shifts = first[:, None] + np.arange(count.max())
+            dev = np.maximum(ref * 10 + 10 * shifts[:, :, None] - r10[:, None, :], 0).sum(
+                axis=2)
+            value = 52 + shifts[np.arange(r.shape[0]), np.argmax(dev > 320, axis=1)] - 1
+            xa1 = -10 * np.log10(np.sum(10 ** ((np.array(RW_SPECTRUM_1) - r) / 10), axis=1))
+            xa2 = -10 * np.log10(np.sum(10 ** ((np.array(RW_SPECTRUM_2) - r) / 10), axis=1))
+            at = np.flatnonzero(ok)
+            out["rw"][at] = value.tolist()
+            out["c"][at] = np.floor(xa1 - value + 0.5).astype(int).tolist()
+            out["ctr"][at] = np.floor(xa2 - value + 0.5).astype(int).tolist()
+        tl, ok = _columns(nominal_hz, curves, OITC_BANDS)
+        if tl is not None and ok.any():
+            a = np.round(a_weighting(third_octave_bands(80, 4000).centre), 1)
+            level = 10 * np.log10(np.sum(10 ** ((np.array(OITC_SPECTRUM) - tl[ok] + a) / 10),
+                                         axis=1))
+            out["oitc"][np.flatnonzero(ok)] = np.floor(100.13 - level + 0.5).astype(int
+                                                                                  ).tolist()
+    return out

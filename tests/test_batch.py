@@ -94,6 +94,27 @@ def _variants(stack, n, seed=1):
     return out
 
 
+def test_a_remembered_tile_row_equals_its_own_computation():
+    # the walls and the leak fronts of a budget evaluate each variant's tile at the same
+    # band nodes, and a batch remembers a tile's impedance per frequency: a wall computed
+    # after its front (the first five layers, the tile last) gives the numbers it gives
+    # with nothing remembered, bit for bit, and its tile rows came from the memo
+    bands = third_octave_bands(100, 1000)
+    stacks = _variants(_sidewall(), 3)
+    fronts = [replace(s, layers=s.layers[:5], labels=s.labels[:5]) for s in stacks]
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ModelRangeWarning)
+        batch._ROW_MEMO.clear()
+        alone = batch.band_transmissions(stacks, bands, rtol=2e-2)
+        batch._ROW_MEMO.clear()
+        batch.band_transmissions(fronts, bands, rtol=2e-2)
+        known = {id(k): len(v) for k, v in batch._ROW_MEMO.items()}
+        after = batch.band_transmissions(stacks, bands, rtol=2e-2)
+    tiles = [s.mounted_layers[4] for s in stacks]
+    assert all(known.get(id(t), 0) >= 9 * len(bands) for t in tiles)
+    np.testing.assert_array_equal(after, alone)
+
+
 @pytest.mark.parametrize("curved", [False, True], ids=["flat", "curved-in-bay"])
 def test_a_variant_does_not_depend_on_its_batch(curved):
     # the contract of a trade study's chunks: a variant's band TL is the same, bit for

@@ -114,3 +114,25 @@ def test_speech_interference_levels():
     assert sil3(octs, lv) == pytest.approx((66 + 62 + 58) / 3)
     with pytest.raises(RatingError):
         sil4(octs[:5], lv[:5])
+
+
+def test_rating_table_equals_the_ratings_of_each_curve():
+    # the table runs the same searches (ASTM E413, ISO 717-1, ASTM E1332) on every curve
+    # at once: curve by curve it equals ratings(), which the tests above check against
+    # the standards; smooth, ragged, very low (no STC contour fits), very high, and
+    # non-finite curves, and a band list without 80 Hz (no OITC)
+    from noisebudget.ratings import rating_table, ratings
+
+    rng = np.random.default_rng(7)
+    nominal = [float(f) for f in nb.third_octave_bands(80, 5000).nominal]
+    slope = 10 + 6 * np.log2(np.array(nominal) / 80)
+    curves = np.concatenate([
+        slope[None, :] + rng.uniform(0, 40, (40, 1)) + rng.normal(0, 4, (40, len(nominal))),
+        np.full((2, len(nominal)), -5.0), np.full((1, len(nominal)), 160.0),
+        rng.uniform(0, 90, (20, len(nominal)))])
+    curves[3, 5] = np.nan
+    curves[4, -1] = np.inf
+    for nom, tl in ((nominal, curves), (nominal[1:], curves[:, 1:])):
+        table = rating_table(nom, tl)
+        for i, curve in enumerate(tl):  # a loop over the checked curves
+            assert {k: table[k][i] for k in table} == dict(ratings(nom, curve)), i

@@ -390,6 +390,9 @@ class Tile(Layer):
     frame_areal_mass: float = 0.0
     tile_thickness: float = 0.0
     type_name = "tile"
+    #: its element depends on the frequency only, and costs Bessel functions: a batch
+    #: remembers it per frequency (:mod:`noisebudget.batch`)
+    remember_rows = True
 
     def __post_init__(self):
         if not self.cells:
