@@ -94,6 +94,18 @@ def _variants(stack, n, seed=1):
     return out
 
 
+def test_a_tile_computes_row_by_row():
+    # what the batch's memo and its independence of the batch rest on: a tile's
+    # impedance at a frequency is the same, bit for bit, computed alone or with any
+    # others (the power series below |ka| = 2 and the Hankel functions above)
+    tile = _sidewall().layers[4]
+    omega = 2 * np.pi * np.geomspace(20, 20000, 601)
+    together = tile.impedance(omega)
+    alone = np.array([tile.impedance(omega[i:i + 1])[0] for i in range(omega.size)])
+    np.testing.assert_array_equal(together, alone)
+    np.testing.assert_array_equal(together[::-3], tile.impedance(omega[::-3]))
+
+
 def test_a_remembered_tile_row_equals_its_own_computation():
     # the walls and the leak fronts of a budget evaluate each variant's tile at the same
     # band nodes, and a batch remembers a tile's impedance per frequency: a wall computed

@@ -119,7 +119,11 @@ def _series(k, r, a):
     p[..., 1] = s
     for i in range(2, _N):  # powers s^n: a loop over series terms, not frequencies
         p[..., i] = p[..., i - 1] * s
-    sums = p.real @ _COEF + 1j * (p.imag @ _COEF)  # real products: no complex BLAS call
+    # the nine sums by np.einsum, which adds the terms of each row in a fixed order (a
+    # BLAS product's blocking and kernels depend on the number of rows): each row's
+    # value is its own, bit for bit
+    sums = (np.einsum("...j,jk->...k", p.real, _COEF)
+            + 1j * np.einsum("...j,jk->...k", p.imag, _COEF))
     j0, h, upn, dj, dh, dpn, ij, ihn, ipn = np.moveaxis(sums, -1, 0)
     ln = np.log(r / a)
     u1, u2, up = j0, ln * j0 + h, r**2 / 4 * upn
