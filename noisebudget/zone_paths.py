@@ -46,7 +46,7 @@ __all__ = ["distinct_items", "zone_transmissions"]
 # Estimated relative accuracy of the budget's transmission coefficients (walls' bands and
 # tones, leak fronts): 2e-2 is 0.086 dB estimated, within the 0.1 dB a trade variant must
 # hold of its single run; the estimates are conservative: over every demo stack in its bay
-# to 10 kHz the realised band error is at most 0.015 dB, and 0.031 dB with every skin
+# to 10 kHz the realised band error is at most 0.030 dB, and 0.017 dB with every skin
 # flat and no bay (against runs at 3e-5)
 WALL_RTOL = 2e-2
 _LEAK_RTOL = WALL_RTOL
