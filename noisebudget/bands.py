@@ -212,7 +212,8 @@ def band_average(func, bands: Bands, rtol: float = 3e-3, max_passes: int = 12,
         size = np.abs(np.bincount(row, val, n))
         tol = rtol * size
         if atol is not None:
-            tol = np.maximum(tol, np.minimum(atol, rtol_max * size))
+            cap = np.inf if rtol_max is None else rtol_max
+            tol = np.maximum(tol, np.minimum(atol, cap * size))
         return (np.bincount(row, err, n) > tol)[row]
 
     # at least one panel per one-third octave (three per octave band)

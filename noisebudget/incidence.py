@@ -128,8 +128,9 @@ def adaptive_panels(gk, row, lo, hi, nrows: int, rtol: float = 3e-3, max_passes:
     atol : ndarray (nrows,), optional
         An absolute tolerance per row (in the integral's units) that may stand in for
         ``rtol``, up to ``rtol_max`` of the row's integral: a row has converged where its
-        summed error is at most ``max(rtol |I|, min(atol, rtol_max |I|))``, e.g. a minor
-        part of a sum held to a share of the sum, but to ``rtol_max`` of itself at worst.
+        summed error is at most ``max(rtol |I|, min(atol, rtol_max |I|))`` (no cap without
+        ``rtol_max``), e.g. a minor part of a sum held to a share of the sum, but to
+        ``rtol_max`` of itself at worst.
 
     Returns
     -------
@@ -163,7 +164,8 @@ def adaptive_panels(gk, row, lo, hi, nrows: int, rtol: float = 3e-3, max_passes:
         size = np.abs(_row_sums(row, val, nrows))
         tol = rtol * size
         if atol is not None:
-            tol = np.maximum(tol, np.minimum(atol, rtol_max * size))
+            cap = np.inf if rtol_max is None else rtol_max
+            tol = np.maximum(tol, np.minimum(atol, cap * size))
         excess = _row_sums(row, err, nrows) - tol
         bad = excess > 0
         idx = np.flatnonzero(bad[row] & (err > 0))

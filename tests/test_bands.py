@@ -215,3 +215,31 @@ def test_band_average_stops_at_9_frequencies_where_the_band_is_smooth():
     exact = g * (np.arctan((hi - f0) / g) - np.arctan((lo - f0) / g)) / (hi - lo)
     assert got == pytest.approx(exact, rel=1e-4)
     assert sum(count) > 19
+
+
+def test_band_average_with_an_absolute_tolerance_capped_by_a_relative_one():
+    # a narrow Lorentzian in a one-third octave (closed form: arctan): with an absolute
+    # tolerance far above its value the band stops once its estimate is within rtol_max
+    # (5 %) of itself, with fewer frequencies than at rtol alone; with a negligible one it
+    # meets rtol; the estimates are conservative, so the errors fall inside both
+    b = nb.third_octave_bands(1000, 1000)
+    f0, g = 1020.0, 3.0
+    lo, hi = b.lower[0], b.upper[0]
+    exact = g * (np.arctan((hi - f0) / g) - np.arctan((lo - f0) / g)) / (hi - lo)
+
+    def run(**kw):
+        count = []
+
+        def peak(f):
+            count.append(np.size(f))
+            return 1.0 / (1 + ((f - f0) / g) ** 2)
+
+        return band_average(peak, b, rtol=1e-6, **kw)[0], sum(count)
+
+    tight, n_tight = run()
+    capped, n_capped = run(atol=1.0, rtol_max=0.05)
+    same, _ = run(atol=1e-30, rtol_max=0.05)
+    assert tight == pytest.approx(exact, rel=1e-6)
+    assert capped == pytest.approx(exact, rel=0.05)
+    assert n_capped < n_tight
+    assert same == tight
