@@ -140,8 +140,8 @@ def zone_transmissions(inp, bands: Bands, tone_hz, rtol: float = WALL_RTOL) -> d
     the results are gathered onto the (package, zone) grid by index arrays. ``rtol`` is
     the walls' estimated relative accuracy (band averages, with the angle integral inside
     at ``3 rtol``, and tones); the leaks' bands are held to 2 % of the zone's wall power
-    or of themselves, and to 10 % of themselves at worst (``_LEAK_SELF``); their tones
-    to 2 % of themselves.
+    or of themselves, and to 10 % of themselves at worst (``_LEAK_SELF``); their tones'
+    fronts to 3 times 2 % of themselves (an angle integral's tolerance, as in a band).
 
     Returns
     -------
