@@ -185,7 +185,7 @@ def band_average(func, bands: Bands, rtol: float = 3e-3, max_passes: int = 12,
     <q>))`` (:func:`noisebudget.incidence.adaptive_panels`): a minor part of a sum held
     to a share of the sum, but to ``rtol_max`` of itself at worst.
     """
-    from .incidence import GK15, _weighted_sum, adaptive_panels
+    from .incidence import GK15, _weighted_sum, adaptive_panels, row_tolerance
 
     nb = len(bands)
     ng = 1 if groups is None else int(groups)
@@ -209,11 +209,7 @@ def band_average(func, bands: Bands, rtol: float = 3e-3, max_passes: int = 12,
 
     def unconverged(row, val, err):
         n = ng * nb
-        size = np.abs(np.bincount(row, val, n))
-        tol = rtol * size
-        if atol is not None:
-            cap = np.inf if rtol_max is None else rtol_max
-            tol = np.maximum(tol, np.minimum(atol, cap * size))
+        tol = row_tolerance(np.abs(np.bincount(row, val, n)), rtol, atol, rtol_max)
         return (np.bincount(row, err, n) > tol)[row]
 
     # at least one panel per one-third octave (three per octave band)

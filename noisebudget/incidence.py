@@ -35,7 +35,7 @@ import numpy as np
 __all__ = ["INCIDENCE", "GK15", "adaptive_gauss_kronrod", "adaptive_panels", "azimuth_average",
            "azimuth_mean_inverse", "azimuth_mean_inverse_square", "azimuth_mean_ratio_square",
            "default_theta_max_deg", "graded_panels", "paris_average", "paris_average_critical",
-           "CriticalMap"]
+           "row_tolerance", "CriticalMap"]
 
 INCIDENCE = ("normal", "field", "diffuse")
 
@@ -101,6 +101,17 @@ def _row_sums(row, values, n):
     return np.bincount(row, values, n)
 
 
+def row_tolerance(size, rtol, atol=None, rtol_max=None):
+    """Each row's allowed error from the size of its integral ``|I|``: ``rtol |I|``, or
+    with an absolute tolerance ``max(rtol |I|, min(atol, rtol_max |I|))`` (no cap without
+    ``rtol_max``)."""
+    tol = rtol * size
+    if atol is not None:
+        cap = np.inf if rtol_max is None else rtol_max
+        tol = np.maximum(tol, np.minimum(atol, cap * size))
+    return tol
+
+
 def adaptive_panels(gk, row, lo, hi, nrows: int, rtol: float = 3e-3, max_passes: int = 60,
                     per_pass: int = 8, aux=None, start=None, atol=None,
                     rtol_max: float | None = None) -> np.ndarray:
@@ -161,11 +172,7 @@ def adaptive_panels(gk, row, lo, hi, nrows: int, rtol: float = 3e-3, max_passes:
     else:
         val, err = (gk(row, lo, hi) if aux is None else gk(row, lo, hi, aux))
     for _ in range(max_passes):  # refinement passes, each vectorised over rows
-        size = np.abs(_row_sums(row, val, nrows))
-        tol = rtol * size
-        if atol is not None:
-            cap = np.inf if rtol_max is None else rtol_max
-            tol = np.maximum(tol, np.minimum(atol, cap * size))
+        tol = row_tolerance(np.abs(_row_sums(row, val, nrows)), rtol, atol, rtol_max)
         excess = _row_sums(row, err, nrows) - tol
         bad = excess > 0
         idx = np.flatnonzero(bad[row] & (err > 0))
