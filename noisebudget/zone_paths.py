@@ -41,7 +41,7 @@ from . import batch
 from .bands import Bands, band_average
 from .multilayer import needs_general_solve
 
-__all__ = ["distinct_items", "zone_transmissions"]
+__all__ = ["LEAK_SELF_RTOL", "WALL_RTOL", "distinct_items", "zone_transmissions"]
 
 # Estimated relative accuracy of the budget's transmission coefficients (walls' bands and
 # tones, leak fronts): 2e-2 is 0.086 dB estimated, within the 0.1 dB a trade variant must
@@ -52,9 +52,9 @@ WALL_RTOL = 2e-2
 _LEAK_RTOL = WALL_RTOL
 # A leak path is one part of its zone's power: its band value is held to _LEAK_RTOL of the
 # zone's wall power (S tau_wall; the least over the cells the leak set serves) or of
-# itself, whichever is larger, but to _LEAK_SELF of itself at worst (0.41 dB), so that a
+# itself, whichever is larger, but to LEAK_SELF_RTOL of itself at worst (0.41 dB), so that a
 # path's own level in the reports keeps a stated accuracy
-_LEAK_SELF = 0.1
+LEAK_SELF_RTOL = 0.1
 
 
 def _by_class(stacks, method: str, *args) -> np.ndarray:
@@ -92,7 +92,7 @@ def _leak_area(terms, n_sets, sets, f, incidence, theta_max_deg, atol=None):
     leak's transmission once per distinct frequency, the fronts batched. With ``atol``
     (m^2 per point: the band's tolerance of the set), the fronts' angle integrals take
     ``_INNER`` times its share per term as their own absolute tolerance, up to
-    ``_INNER * _LEAK_SELF`` of themselves (:func:`noisebudget.batch.average_rows`)."""
+    ``_INNER * LEAK_SELF_RTOL`` of themselves (:func:`noisebudget.batch.average_rows`)."""
     out = np.zeros(f.size)
     if not terms:
         return out
@@ -128,7 +128,7 @@ def _leak_area(terms, n_sets, sets, f, incidence, theta_max_deg, atol=None):
             area[has] = area[has] * batch.average_rows(
                 [fronts[k] for k in used], np.array([where[k] for k in term[has]]),
                 f[sel[has]], incidence, theta_max_deg, batch._INNER * _LEAK_RTOL,
-                atol=inner, rtol_max=batch._INNER * _LEAK_SELF)
+                atol=inner, rtol_max=batch._INNER * LEAK_SELF_RTOL)
         out[sel] += area
     return out
 
@@ -140,7 +140,7 @@ def zone_transmissions(inp, bands: Bands, tone_hz, rtol: float = WALL_RTOL) -> d
     the results are gathered onto the (package, zone) grid by index arrays. ``rtol`` is
     the walls' estimated relative accuracy (band averages, with the angle integral inside
     at ``3 rtol``, and tones); the leaks' bands are held to 2 % of the zone's wall power
-    or of themselves, and to 10 % of themselves at worst (``_LEAK_SELF``); their tones'
+    or of themselves, and to 10 % of themselves at worst (``LEAK_SELF_RTOL``); their tones'
     fronts to 3 times 2 % of themselves (an angle integral's tolerance, as in a band).
 
     Returns
@@ -183,7 +183,7 @@ def zone_transmissions(inp, bands: Bands, tone_hz, rtol: float = WALL_RTOL) -> d
                 return _leak_area(terms, n_sets, g, f, inc, tmax, atol[g, b])
 
             band = band_average(area, bands, _LEAK_RTOL, groups=n_sets, atol=atol,
-                                rtol_max=_LEAK_SELF)
+                                rtol_max=LEAK_SELF_RTOL)
         else:
             band = np.zeros((n_sets, len(bands)))
         tone = _leak_area(terms, n_sets, np.repeat(np.arange(n_sets), tone_hz.size),

@@ -195,7 +195,7 @@ def _leak_bands(inp, bands, monkeypatch=None, tight=False):
 
     if tight:
         monkeypatch.setattr(zone_paths, "_LEAK_RTOL", WALL_RTOL / 100)
-        monkeypatch.setattr(zone_paths, "_LEAK_SELF", WALL_RTOL / 100)
+        monkeypatch.setattr(zone_paths, "LEAK_SELF_RTOL", WALL_RTOL / 100)
         out = zone_paths.zone_transmissions(inp, bands, [], rtol=WALL_RTOL / 100)
         monkeypatch.undo()
         return out
@@ -211,7 +211,7 @@ def test_a_minor_leak_is_held_to_its_share_of_the_zone_and_to_10_percent_of_itse
     # itself)) in every band, and the zone's total (wall plus leak) within the budget's 2 %
     from noisebudget.resources import data_path
     from noisebudget.study import load_study
-    from noisebudget.zone_paths import _LEAK_SELF
+    from noisebudget.zone_paths import LEAK_SELF_RTOL
 
     inp = load_study(data_path("examples", "demo-study.toml")).inputs
     keep = [p for p in inp.packages if p.name == "BPF tiles"]
@@ -226,7 +226,7 @@ def test_a_minor_leak_is_held_to_its_share_of_the_zone_and_to_10_percent_of_itse
     leak, wall = got["leak_area"][0, z], area * ref["wall"][0, z]
     exact = ref["leak_area"][0, z]
     assert np.all(exact < 0.02 * wall)  # a minor path: its share is what the test is about
-    allowed = np.maximum(WALL_RTOL * exact, np.minimum(WALL_RTOL * wall, _LEAK_SELF * exact))
+    allowed = np.maximum(WALL_RTOL * exact, np.minimum(WALL_RTOL * wall, LEAK_SELF_RTOL * exact))
     assert np.all(np.abs(leak - exact) <= allowed)
     total = area * got["wall"][0, z] + leak
     assert np.all(np.abs(total - (wall + exact)) <= WALL_RTOL * (wall + exact))

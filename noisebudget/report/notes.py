@@ -13,6 +13,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..textout import plural
+from ..zone_paths import LEAK_SELF_RTOL, WALL_RTOL
 from .model import fmt
 from .model import sig3_text as _g
 
@@ -74,6 +75,8 @@ REFERENCES = [
     "ASTM E413 (STC); ISO 717-1:2013 (Rw, C, Ctr); ASTM E1332 (OITC); ANSI S3.14-1977 (SIL).",
     "ISO 10140-2, ISO 16283-1 (R = L1 - L2 + 10 lg S/A); W. C. Sabine (A = 0.161 V/T).",
     "ICAO Doc 7488 (standard atmosphere); 14 CFR 25.841 (cabin pressure altitude).",
+    "R. Piessens et al., QUADPACK, Springer 1983 (adaptive Gauss-Kronrod quadrature); "
+    "T. N. L. Patterson, Math. Comp. 22 (1968) 847 (nested quadrature rules).",
 ]
 
 
@@ -330,4 +333,16 @@ def assumptions(result) -> list:
                 "the treatment mass. A package's installation mass counts for the zones it "
                 "defines itself; a zone taken over keeps that of the package it came from.",
                 f"baseline package: {inp.baseline}."))
+    out.append(("Numerical accuracy",
+                "The angle and band integrals are adaptive with error estimates: each "
+                f"wall's band and tone transmission to {fmt(100 * WALL_RTOL, 'General')} % "
+                f"({fmt(10 * np.log10(1 + WALL_RTOL), '0.00')} dB); a leak path's band "
+                f"values to {fmt(100 * WALL_RTOL, 'General')} % of its zone's wall power or "
+                "of themselves, whichever is larger, never worse than "
+                f"{fmt(100 * LEAK_SELF_RTOL, 'General')} % "
+                f"({fmt(10 * np.log10(1 + LEAK_SELF_RTOL), '0.00')} dB) of themselves. The "
+                "estimates are conservative: the demonstration stacks agree with runs 100 "
+                "to 1,000 times tighter within 0.03 dB per band. Numerical accuracy is not "
+                "model accuracy: see the cautions.",
+                "the same tolerances in every study and trade variant."))
     return out
