@@ -221,13 +221,14 @@ def _element_once(layer, cls, om, probe, air):
 # the walls and the leak fronts of a budget evaluate a tile at the same band nodes
 _ROW_MEMO: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
 _ROW_MEMO_LOCK = threading.Lock()
+_MEMO_ROWS = 4096   # frequencies remembered per layer at most: bounded memory
 
 
 def _remembered_sheet(batch, i, layer, var, om, probe, air):
     """The element of layer ``i`` (a sheet whose impedance depends on the frequency only,
     ``remember_rows``) at the rows, each (variant layer, frequency) computed once while
-    that layer lives: bit for bit the value of a computation of its own (the models
-    compute row by row)."""
+    that layer lives (up to ``_MEMO_ROWS`` frequencies a layer): bit for bit the value of
+    a computation of its own (the models compute row by row)."""
     n = var.size
     objs = [s.mounted_layers[i] for s in batch.stacks]
     z = np.empty(n, complex)
@@ -250,8 +251,8 @@ def _remembered_sheet(batch, i, layer, var, om, probe, air):
         with _ROW_MEMO_LOCK:
             for g in groups:  # remember the new rows, per variant layer
                 new = g[~have[g]]
-                if new.size:
-                    memo = _ROW_MEMO.setdefault(objs[var[g[0]]], {})
+                memo = _ROW_MEMO.setdefault(objs[var[g[0]]], {})
+                if new.size and len(memo) + new.size <= _MEMO_ROWS:
                     memo.update(zip(om[new, 0].tolist(), z[new].tolist(), strict=True))
     return SheetElement(z[:, None])
 

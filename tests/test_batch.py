@@ -125,6 +125,16 @@ def test_a_remembered_tile_row_equals_its_own_computation():
     tiles = [s.mounted_layers[4] for s in stacks]
     assert all(known.get(id(t), 0) >= 9 * len(bands) for t in tiles)
     np.testing.assert_array_equal(after, alone)
+    # bounded: a long narrowband sweep remembers at most _MEMO_ROWS frequencies a layer,
+    # and its values are those computed without the memo
+    f = np.geomspace(20, 20000, batch._MEMO_ROWS + 500)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ModelRangeWarning)
+        batch._ROW_MEMO.clear()
+        first = stacks[0].average_transmission(f, rtol=2e-2)
+        again = stacks[0].average_transmission(f, rtol=2e-2)
+    assert max(len(v) for v in batch._ROW_MEMO.values()) <= batch._MEMO_ROWS
+    np.testing.assert_array_equal(first, again)
 
 
 @pytest.mark.parametrize("curved", [False, True], ids=["flat", "curved-in-bay"])
