@@ -206,8 +206,11 @@ def _element_once(layer, cls, om, probe, air):
     ``cls`` and frequency (each row's value is its own, bit for bit: the models compute
     row by row)."""
     n = om.shape[0]
-    first, back = np.unique(np.column_stack([cls, om[:, 0]]), axis=0, return_index=True,
-                            return_inverse=True)[1:]
+    # each (class, frequency) as one complex number: a 1-D unique, far faster than one by
+    # rows, in the same lexicographic order
+    pair = np.empty(n, complex)
+    pair.real, pair.imag = cls, om[:, 0]
+    first, back = np.unique(pair, return_index=True, return_inverse=True)[1:]
     if first.size == n:
         return layer.element(om, probe, air)
     back = back.reshape(-1)

@@ -215,10 +215,14 @@ class RadiationTable:
 
         k = np.asarray(k, dtype=float)
         kt_max = np.maximum(np.asarray(kt_max, dtype=float), 1e-12)
-        pairs = np.stack([np.broadcast_to(k, kt_max.shape), kt_max], axis=-1)
         self.kt_max = kt_max.reshape(-1)
-        uniq, back = np.unique(pairs.reshape(-1, 2), axis=0, return_inverse=True)
-        pieces, coef = _table_rows(panel, uniq[:, 0], uniq[:, 1])
+        # each (k, kt_max) as one complex number: a 1-D unique, far faster than one by
+        # rows, in the same lexicographic order
+        pair = np.empty(self.kt_max.size, complex)
+        pair.real = np.broadcast_to(k, kt_max.shape).reshape(-1)
+        pair.imag = self.kt_max
+        uniq, back = np.unique(pair, return_inverse=True)
+        pieces, coef = _table_rows(panel, uniq.real.copy(), uniq.imag.copy())
         start = np.concatenate([[0], np.cumsum(pieces[:-1] * PIECE_TERMS)])
         back = back.reshape(-1)
         self.pieces = pieces[back]                  # pieces per row
