@@ -147,3 +147,34 @@ def test_kernels_compile_without_a_writable_cache():
                          timeout=300)
     assert out.returncode == 0, out.stderr
     assert float(out.stdout) == 1.0
+
+
+def test_gk15_sums_against_quadpack_qk15_and_scipy():
+    # the 15-point Kronrod integral and QUADPACK's scaled error estimate (Piessens et al.
+    # 1983, qk15: resasc min(1, (200 |K - G| / resasc)^1.5)) written out in numpy; the
+    # integral of a smooth function against scipy.integrate.quad; a constant's estimate 0
+    from scipy import integrate
+
+    from noisebudget.incidence import GK15
+
+    x, wk, wg = GK15
+    rng = np.random.default_rng(11)
+    a, b = rng.uniform(0, 1, 40), rng.uniform(1, 3, 40)
+    c, h = (a + b) / 2, (b - a) / 2
+    nodes = c[:, None] + h[:, None] * x
+    q = np.exp(-nodes) * np.cos(3 * nodes) + rng.uniform(0, 1e-3, nodes.shape)
+    ik, err = np.empty(40), np.empty(40)
+    kernels.gk15_sums(q, h, wk, wg, ik, err)
+    k_ref, g_ref = h * (q @ wk), h * (q @ wg)
+    resasc = h * (np.abs(q - (k_ref / (2 * h))[:, None]) @ wk)
+    e_ref = resasc * np.minimum(1.0, (200 * np.abs(k_ref - g_ref) / resasc) ** 1.5)
+    np.testing.assert_allclose(ik, k_ref, rtol=1e-14)
+    np.testing.assert_allclose(err, e_ref, rtol=1e-8)  # |K - G| cancels: sums differ in order
+    smooth = np.exp(-nodes) * np.cos(3 * nodes)
+    kernels.gk15_sums(smooth, h, wk, wg, ik, err)
+    for i in range(3):  # a few panels against adaptive quadrature
+        ref = integrate.quad(lambda t: np.exp(-t) * np.cos(3 * t), a[i], b[i],
+                             epsabs=0, epsrel=1e-13)[0]
+        assert ik[i] == pytest.approx(ref, rel=1e-10, abs=1e-14)
+    kernels.gk15_sums(np.full((2, 15), 2.0), np.array([0.5, 0.0]), wk, wg, ik[:2], err[:2])
+    assert ik[0] == pytest.approx(2.0) and err[0] == 0.0 and ik[1] == 0.0
