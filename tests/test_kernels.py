@@ -152,7 +152,7 @@ def test_kernels_compile_without_a_writable_cache():
 def test_gk15_sums_against_quadpack_qk15_and_scipy():
     # the 15-point Kronrod integral and QUADPACK's scaled error estimate (Piessens et al.
     # 1983, qk15: resasc min(1, (200 |K - G| / resasc)^1.5)) written out in numpy; the
-    # integral of a smooth function against scipy.integrate.quad; a constant's estimate 0
+    # integral of a smooth function against scipy.integrate.quad; a constant's estimate ~0
     from scipy import integrate
 
     from noisebudget.incidence import GK15
@@ -174,7 +174,7 @@ def test_gk15_sums_against_quadpack_qk15_and_scipy():
     kernels.gk15_sums(smooth, h, wk, wg, ik, err)
     for i in range(3):  # a few panels against adaptive quadrature
         ref = integrate.quad(lambda t: np.exp(-t) * np.cos(3 * t), a[i], b[i],
-                             epsabs=0, epsrel=1e-13)[0]
+                             epsabs=0, epsrel=1e-12)[0]
         assert ik[i] == pytest.approx(ref, rel=1e-10, abs=1e-14)
     kernels.gk15_sums(np.full((2, 15), 2.0), np.array([0.5, 0.0]), wk, wg, ik[:2], err[:2])
-    assert ik[0] == pytest.approx(2.0) and err[0] == 0.0 and ik[1] == 0.0
+    assert ik[0] == pytest.approx(2.0) and err[0] < 1e-14 and ik[1] == 0.0
