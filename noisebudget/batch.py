@@ -388,10 +388,21 @@ class _Rows:
     def sharp_u(self):
         """The layers' sharp trace wavenumbers (coincidence) as ``u``, (n, p)."""
         om = self.omega[:, None]
+        freqs = back = None
         parts = []
-        for layer, t in zip(self.layers, self.batch.first.mounted_layers, strict=True):
-            r = (layer.trace_resonances(om) if t.isotropic
-                 else layer.trace_resonances(om, None))
+        for i, (layer, t) in enumerate(zip(self.layers, self.batch.first.mounted_layers,
+                                           strict=True)):
+            cls = self.batch.classes[i]
+            if cls.size > 1 and not cls.any():  # every variant's the same: once a frequency
+                if freqs is None:
+                    freqs, back = np.unique(self.omega, return_inverse=True)
+                r = (t.trace_resonances(freqs[:, None]) if t.isotropic
+                     else t.trace_resonances(freqs[:, None], None))
+                if r is not None:
+                    r = np.broadcast_to(r, (freqs.size, np.shape(r)[-1]))[back.reshape(-1)]
+            else:
+                r = (layer.trace_resonances(om) if t.isotropic
+                     else layer.trace_resonances(om, None))
             if r is not None:
                 parts.append(np.broadcast_to(r, (om.shape[0], np.shape(r)[-1])))
         if not parts:

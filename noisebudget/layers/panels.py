@@ -284,7 +284,13 @@ class Plate(Layer):
         if self.in_plane_tension is not None or not np.isfinite(self.curvature_radius):
             return self
         n = max(float(delta_p), 0.0) * self.curvature_radius
-        return replace(self, in_plane_tension=(n / 2, n))
+        # once per plate object and pressure (it is frozen): a trade study mounts the same
+        # skin in every variant's stack
+        known = self.__dict__.get("_mounted")
+        if known is None or known[0] != n:
+            known = (n, replace(self, in_plane_tension=(n / 2, n)))
+            object.__setattr__(self, "_mounted", known)
+        return known[1]
 
     def azimuth_series(self, omega):
         """Coefficients of :meth:`azimuth_polynomial` in ``s = kt^2`` per frequency.
