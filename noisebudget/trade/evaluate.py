@@ -35,9 +35,9 @@ RATINGS = ("stc", "rw", "c", "ctr", "oitc")
 #: Relative tolerance of a variant's wall transmission: the budget's own (2e-2, 0.086 dB
 #: estimated, within the 0.1 dB a variant must hold), so that a sweep's variant equals
 #: ``run_study`` of that variant written into the file, bit for bit. Measured on the demo
-#: sidewall (curved skin in its bay, tile, to 10 kHz): 24k points and 11.2 ms of CPU per
-#: variant (10,000 variants in 55-58 s on two processes), with a realised band error of
-#: at most 0.026 dB against a run 100 times tighter; every integral stays adaptive.
+#: sidewall (curved skin in its bay, tile, to 10 kHz): 24k points and 11 ms of CPU per
+#: variant (10,000 variants in 55 s on two quiet cores), with a realised band error of at
+#: most 0.026 dB against a run 100 times tighter; every integral stays adaptive.
 TRADE_RTOL = WALL_RTOL
 _CACHE_SIZE = 4096
 _cache: OrderedDict = OrderedDict()  # (stack, method, args) -> result; per process
